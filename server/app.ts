@@ -1,0 +1,81 @@
+import { randomUUID } from 'node:crypto';
+import { existsSync } from 'node:fs';
+import path from 'node:path';
+import express, { type Express } from 'express';
+import helmet from 'helmet';
+import { pino, type Logger } from 'pino';
+import { pinoHttp } from 'pino-http';
+import swaggerUi from 'swagger-ui-express';
+import type { AppConfig } from './config.ts';
+import { systemClock, type AppContext, type Clock } from './context.ts';
+import type { Database } from './db/client.ts';
+import { healthRouter } from './api/health.routes.ts';
+import { v1Router } from './api/v1/router.ts';
+import { notFoundHandler, problemErrorHandler } from './http/error-middleware.ts';
+import { openApiDocument } from './openapi/document.ts';
+
+export interface AppDependencies {
+  database: Database;
+  config: AppConfig;
+  clock?: Clock;
+  logger?: Logger;
+}
+
+const REQUEST_ID_PATTERN = /^[A-Za-z0-9._-]{1,64}$/;
+
+/** Builds the whole HTTP application from its dependencies; listening is the caller's business. */
+export function createApp(deps: AppDependencies): Express {
+  const logger = deps.logger ?? pino({ level: deps.config.logLevel });
+  const ctx: AppContext = { database: deps.database, config: deps.config, clock: deps.clock ?? systemClock, logger };
+  const app = express();
+  app.disable('x-powered-by');
+
+  app.use(
+    pinoHttp({
+      logger,
+      // A caller's own id is echoed when it is safe to log; otherwise we mint one.
+      genReqId: (req, res) => {
+        const incoming = req.headers['x-request-id'];
+        const id = typeof incoming === 'string' && REQUEST_ID_PATTERN.test(incoming) ? incoming : randomUUID();
+        res.setHeader('X-Request-Id', id);
+        return id;
+      },
+      redact: ['req.headers.authorization', 'req.headers.cookie', 'res.headers["set-cookie"]'],
+    }),
+  );
+  app.use(helmet());
+  app.use(express.json({ limit: deps.config.bodyLimit, type: ['application/json', 'application/*+json'] }));
+
+  app.use(healthRouter(ctx));
+  app.get('/api/v1/openapi.json', (_req, res) => {
+    res.json(openApiDocument());
+  });
+  app.use('/api/v1', v1Router(ctx));
+  app.use('/api', notFoundHandler);
+  app.use('/docs', swaggerUi.serve, swaggerUi.setup(openApiDocument(), { customSiteTitle: 'Gammaline API reference' }));
+
+  mountConsole(app, deps.config.webDist);
+  app.use(notFoundHandler);
+  app.use(problemErrorHandler);
+  return app;
+}
+
+/** Serves the built console with a history fallback that never answers for `/api` or `/docs`. */
+function mountConsole(app: Express, webDist: string): void {
+  const root = path.resolve(webDist);
+  const index = path.join(root, 'index.html');
+  if (!existsSync(index)) return;
+  app.use(express.static(root, { index: false, maxAge: '1h', setHeaders: noCacheForIndex }));
+  app.get('/{*any}', (req, res, next) => {
+    if (req.path.startsWith('/api/') || req.path === '/api' || req.path.startsWith('/docs') || !req.accepts('html')) {
+      next();
+      return;
+    }
+    res.setHeader('Cache-Control', 'no-cache');
+    res.sendFile(index);
+  });
+}
+
+function noCacheForIndex(res: express.Response, filePath: string): void {
+  if (filePath.endsWith('index.html')) res.setHeader('Cache-Control', 'no-cache');
+}
