@@ -1,0 +1,333 @@
+import { z } from 'zod';
+import {
+  ComplexSchema,
+  FrequencyHz,
+  ImpedanceSchema,
+  MismatchLossOutput,
+  PowerW,
+  ReflectionDetailSchema,
+  ReturnLossOutput,
+  SwrOutput,
+} from './common.ts';
+
+type RefineCtx = z.RefinementCtx;
+
+function present(value: object, keys: readonly string[]): string[] {
+  return keys.filter((k) => (value as Record<string, unknown>)[k] !== undefined);
+}
+
+/** Exactly one of several alternatives, each a group of fields that must come together. */
+function exactlyOneGroup(value: object, groups: readonly (readonly string[])[], ctx: RefineCtx, what: string): void {
+  const used = groups.filter((g) => present(value, g).length > 0);
+  if (used.length === 0) {
+    ctx.addIssue({ code: 'custom', path: [], message: `give ${what}: one of ${groups.map((g) => `{ ${g.join(', ')} }`).join(', ')}` });
+    return;
+  }
+  if (used.length > 1) {
+    const names = used.map((g) => g.join(' + '));
+    ctx.addIssue({ code: 'custom', path: [used[1]![0]!], message: `give only one input, not both ${names[0]} and ${names[1]}` });
+    return;
+  }
+  const group = used[0]!;
+  for (const key of group) {
+    if ((value as Record<string, unknown>)[key] === undefined) {
+      ctx.addIssue({ code: 'custom', path: [key], message: `${key} is required together with ${group.filter((k) => k !== key).join(', ')}` });
+    }
+  }
+}
+
+// ---------------------------------------------------------------- mismatch
+
+export const MISMATCH_INPUT_GROUPS = [
+  ['swr'],
+  ['reflectionMagnitude'],
+  ['returnLossDb'],
+  ['mismatchLossDb'],
+  ['reflectedPowerRatio'],
+  ['forwardPowerW', 'reflectedPowerW'],
+  ['forwardVoltageV', 'reflectedVoltageV'],
+  ['maxVoltageV', 'minVoltageV'],
+] as const;
+
+export const MismatchRequestSchema = z
+  .strictObject({
+    swr: z.number().min(1).optional().meta({ description: 'Standing-wave ratio (≥ 1).', example: 1.5 }),
+    reflectionMagnitude: z.number().min(0).max(1).optional().meta({ description: '|Γ|, from 0 (match) to 1 (total reflection).' }),
+    returnLossDb: z.number().min(0).optional().meta({ description: 'Return loss in dB (≥ 0).' }),
+    mismatchLossDb: z.number().min(0).optional().meta({ description: 'Mismatch loss in dB (≥ 0).' }),
+    reflectedPowerRatio: z.number().min(0).max(1).optional().meta({ description: 'Reflected / forward power, 0 to 1.' }),
+    forwardPowerW: PowerW.optional().meta({ description: 'Forward power in watts, read at one point on the line.' }),
+    reflectedPowerW: PowerW.optional().meta({ description: 'Reflected power in watts, read at the same point (≤ forward).' }),
+    forwardVoltageV: z.number().min(0).optional().meta({ description: 'Forward-wave detector voltage (any consistent unit of volts).' }),
+    reflectedVoltageV: z.number().min(0).optional().meta({ description: 'Reflected-wave detector voltage (≤ forward).' }),
+    maxVoltageV: z.number().min(0).optional().meta({ description: 'Standing-wave voltage maximum along the line.' }),
+    minVoltageV: z.number().min(0).optional().meta({ description: 'Standing-wave voltage minimum along the line.' }),
+  })
+  .superRefine((v, ctx) => exactlyOneGroup(v, MISMATCH_INPUT_GROUPS, ctx, 'exactly one mismatch input'))
+  .meta({
+    id: 'MismatchRequest',
+    description: 'Exactly one input: `swr`, `reflectionMagnitude`, `returnLossDb`, `mismatchLossDb`, `reflectedPowerRatio`, or one of the pairs `forwardPowerW` + `reflectedPowerW`, `forwardVoltageV` + `reflectedVoltageV`, `maxVoltageV` + `minVoltageV`.',
+    example: { forwardPowerW: 100, reflectedPowerW: 4 },
+  });
+
+export const MismatchResultSchema = z
+  .object({
+    swr: SwrOutput,
+    reflectionMagnitude: z.number().meta({ description: '|Γ|.' }),
+    returnLossDb: ReturnLossOutput,
+    mismatchLossDb: MismatchLossOutput,
+    reflectedPowerRatio: z.number().meta({ description: '|Γ|², the fraction of forward power reflected.' }),
+    transmittedPowerRatio: z.number().meta({ description: '1 − |Γ|², the fraction of forward power delivered.' }),
+    netPowerW: z.number().optional().meta({ description: 'Forward − reflected power, when powers were given.' }),
+  })
+  .meta({ id: 'MismatchResult' });
+
+// ---------------------------------------------------------------- reflection
+
+export const ReflectionRequestSchema = z
+  .strictObject({
+    loadOhm: ImpedanceSchema.optional().meta({ description: 'Load impedance ZL in ohms (give this, or `reflection` for the inverse).' }),
+    reflection: ComplexSchema.optional().meta({ description: 'Reflection coefficient Γ, for the inverse: the load impedance it implies.' }),
+    referenceOhm: ImpedanceSchema.default(50).meta({ description: 'Reference (characteristic) impedance Z0 in ohms; may be complex. Default 50.' }),
+  })
+  .superRefine((v, ctx) => exactlyOneGroup(v, [['loadOhm'], ['reflection']], ctx, 'the load or its reflection coefficient'))
+  .meta({ id: 'ReflectionRequest', example: { loadOhm: { re: 100, im: 50 }, referenceOhm: 50 } });
+
+export const ReflectionResultSchema = z
+  .object({
+    reflection: ReflectionDetailSchema.meta({ description: 'Voltage reflection coefficient Γ = (ZL − Z0)/(ZL + Z0).' }),
+    powerWaveReflection: ReflectionDetailSchema.meta({
+      description: 'Power-wave reflection coefficient (ZL − Z0*)/(ZL + Z0) (Kurokawa). Equal to Γ for a real Z0; the mismatch figures are computed from it, so they stay meaningful for a complex Z0.',
+    }),
+    swr: SwrOutput,
+    returnLossDb: ReturnLossOutput,
+    mismatchLossDb: MismatchLossOutput,
+    reflectedPowerRatio: z.number(),
+    transmittedPowerRatio: z.number(),
+    loadOhm: ComplexSchema.nullable().meta({ description: 'Load impedance; `null` for an open circuit (Γ = 1).' }),
+    admittanceS: ComplexSchema.nullable().meta({ description: 'Load admittance in siemens; `null` for a short circuit.' }),
+    referenceOhm: ComplexSchema,
+  })
+  .meta({ id: 'ReflectionResult' });
+
+// ---------------------------------------------------------------- line
+
+export const RlgcSchema = z
+  .strictObject({
+    rOhmPerM: z.number().min(0).meta({ description: 'Series resistance per metre (Ω/m) at the frequency.' }),
+    lHPerM: z.number().positive().meta({ description: 'Series inductance per metre (H/m).' }),
+    gSPerM: z.number().min(0).meta({ description: 'Shunt conductance per metre (S/m).' }),
+    cFPerM: z.number().positive().meta({ description: 'Shunt capacitance per metre (F/m).' }),
+  })
+  .meta({ id: 'Rlgc', description: 'Per-metre primary constants for the telegrapher\'s equations.', example: { rOhmPerM: 0.05, lHPerM: 2.5e-7, gSPerM: 1e-9, cFPerM: 1e-10 } });
+
+const LINE_FORMS = {
+  cable: ['cableId'],
+  spec: ['impedanceOhm', 'velocityFactor', 'lossDbPer100m', 'lossDbPer100ft'],
+  rlgc: ['rlgc'],
+} as const;
+
+export const LineSpecSchema = z
+  .strictObject({
+    cableId: z.string().min(1).max(100).optional().meta({ description: 'A cable from `GET /api/v1/cables` (its loss at the frequency comes from the catalog).', example: 'rg-213' }),
+    impedanceOhm: ImpedanceSchema.optional().meta({ description: 'Characteristic impedance Z0 in ohms.' }),
+    velocityFactor: z.number().gt(0).max(1).optional().meta({ description: 'Velocity factor, 0 < VF ≤ 1.' }),
+    lossDbPer100m: z.number().min(0).optional().meta({ description: 'Matched loss at this frequency, dB per 100 m.' }),
+    lossDbPer100ft: z.number().min(0).optional().meta({ description: 'Matched loss at this frequency, dB per 100 ft.' }),
+    rlgc: RlgcSchema.optional(),
+    lengthM: z.number().min(0).optional().meta({ description: 'Physical length in metres.' }),
+    lengthFt: z.number().min(0).optional().meta({ description: 'Physical length in feet.' }),
+  })
+  .superRefine((v, ctx) => {
+    const lengths = present(v, ['lengthM', 'lengthFt']);
+    if (lengths.length === 0) ctx.addIssue({ code: 'custom', path: ['lengthM'], message: 'give the line length as lengthM or lengthFt' });
+    if (lengths.length === 2) ctx.addIssue({ code: 'custom', path: ['lengthFt'], message: 'give the length as lengthM or lengthFt, not both' });
+    const forms = (Object.keys(LINE_FORMS) as (keyof typeof LINE_FORMS)[]).filter((f) => present(v, LINE_FORMS[f]).length > 0);
+    if (forms.length === 0) {
+      ctx.addIssue({ code: 'custom', path: [], message: 'describe the line by cableId, by impedanceOhm + velocityFactor + lossDbPer100m (or lossDbPer100ft), or by rlgc' });
+      return;
+    }
+    if (forms.length > 1) {
+      ctx.addIssue({ code: 'custom', path: [LINE_FORMS[forms[1]!][0]], message: `describe the line one way only, not both by ${forms[0]} and by ${forms[1]}` });
+      return;
+    }
+    if (forms[0] === 'spec') {
+      if (v.impedanceOhm === undefined) ctx.addIssue({ code: 'custom', path: ['impedanceOhm'], message: 'impedanceOhm is required with velocityFactor and loss' });
+      if (v.velocityFactor === undefined) ctx.addIssue({ code: 'custom', path: ['velocityFactor'], message: 'velocityFactor is required with impedanceOhm and loss' });
+      const losses = present(v, ['lossDbPer100m', 'lossDbPer100ft']);
+      if (losses.length === 0) ctx.addIssue({ code: 'custom', path: ['lossDbPer100m'], message: 'give the matched loss as lossDbPer100m or lossDbPer100ft (0 for a lossless line)' });
+      if (losses.length === 2) ctx.addIssue({ code: 'custom', path: ['lossDbPer100ft'], message: 'give the loss as lossDbPer100m or lossDbPer100ft, not both' });
+    }
+  })
+  .meta({
+    id: 'LineSpec',
+    description:
+      'A feed line, one of: `{ cableId, lengthM | lengthFt }`; `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` (matched loss at the frequency); `{ rlgc, lengthM | lengthFt }` (telegrapher\'s equations, complex Z0).',
+    example: { cableId: 'rg-213', lengthM: 30 },
+  });
+
+export type LineSpec = z.infer<typeof LineSpecSchema>;
+
+export const LineRequestSchema = z
+  .strictObject({
+    frequencyHz: FrequencyHz,
+    line: LineSpecSchema,
+    loadOhm: ImpedanceSchema.meta({ description: 'Load impedance at the far (antenna) end, ohms.' }),
+    powerW: PowerW.optional().meta({ description: 'Net power into the line input (W). Adds `power` and `peaks` to the result.' }),
+  })
+  .meta({ id: 'LineRequest', example: { frequencyHz: 14_200_000, line: { cableId: 'rg-213', lengthM: 30 }, loadOhm: { re: 72, im: 18 }, powerW: 100 } });
+
+const EndReportSchema = z
+  .object({ reflection: ReflectionDetailSchema, swr: SwrOutput, returnLossDb: ReturnLossOutput, impedanceOhm: ComplexSchema })
+  .meta({ id: 'LineEnd', description: 'Mismatch at one end of the line, against the line\'s Z0.' });
+
+export const LineResultSchema = z
+  .object({
+    inputOhm: ComplexSchema.meta({ description: 'Impedance seen at the line input.' }),
+    characteristicOhm: ComplexSchema,
+    electricalLengthDeg: z.number(),
+    lengthWavelengths: z.number(),
+    matchedLossDb: z.number().meta({ description: 'Loss of the line when matched.' }),
+    totalLossDb: z.number().nullable().meta({ description: 'Loss with this load: 10·log10(Pin/Pload); `null` when no power reaches the load.' }),
+    mismatchExtraLossDb: z.number().nullable().meta({ description: 'Extra loss caused by the mismatch: total − matched.' }),
+    atLoad: EndReportSchema,
+    atInput: EndReportSchema,
+    power: z.object({ inputW: z.number(), loadW: z.number(), lineDissipationW: z.number() }).optional(),
+    peaks: z
+      .object({ maxVoltageV: z.number(), maxCurrentA: z.number(), maxVoltageAtM: z.number(), maxCurrentAtM: z.number() })
+      .optional()
+      .meta({ description: 'RMS voltage and current maxima on the line and their distance from the input.' }),
+    cautions: z.array(z.string()).meta({ description: 'Safety cautions, e.g. a voltage above the cable\'s rating. Show them to the user.' }),
+  })
+  .meta({ id: 'LineResult' });
+
+// ---------------------------------------------------------------- refer
+
+export const ReadingSchema = z
+  .strictObject({
+    swr: z.number().min(1).optional().meta({ description: 'SWR read at this end.' }),
+    forwardPowerW: PowerW.optional(),
+    reflectedPowerW: PowerW.optional(),
+  })
+  .superRefine((v, ctx) => exactlyOneGroup(v, [['swr'], ['forwardPowerW', 'reflectedPowerW']], ctx, 'a reading'))
+  .meta({ id: 'Reading', description: '`{ swr }` or `{ forwardPowerW, reflectedPowerW }`.', example: { forwardPowerW: 100, reflectedPowerW: 11 } });
+
+export const ReferRequestSchema = z
+  .strictObject({
+    frequencyHz: FrequencyHz.optional(),
+    line: LineSpecSchema.optional(),
+    matchedLossDb: z.number().min(0).optional().meta({ description: 'The line\'s matched loss, instead of `frequencyHz` + `line`.' }),
+    direction: z.enum(['sourceToLoad', 'loadToSource']).meta({ description: '`sourceToLoad`: the reading was taken at the transmitter; `loadToSource`: at the antenna.' }),
+    reading: ReadingSchema,
+  })
+  .superRefine((v, ctx) => {
+    const byLine = v.frequencyHz !== undefined || v.line !== undefined;
+    if (v.matchedLossDb !== undefined && byLine) {
+      ctx.addIssue({ code: 'custom', path: ['matchedLossDb'], message: 'give matchedLossDb or frequencyHz + line, not both' });
+    } else if (v.matchedLossDb === undefined && !byLine) {
+      ctx.addIssue({ code: 'custom', path: ['matchedLossDb'], message: 'give the line: matchedLossDb, or frequencyHz + line' });
+    } else if (byLine && (v.frequencyHz === undefined || v.line === undefined)) {
+      ctx.addIssue({ code: 'custom', path: [v.line === undefined ? 'line' : 'frequencyHz'], message: 'frequencyHz and line go together' });
+    }
+  })
+  .meta({ id: 'ReferRequest', example: { frequencyHz: 7_100_000, line: { cableId: 'rg-58', lengthM: 40 }, direction: 'sourceToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 11 } } });
+
+const EndFiguresSchema = z
+  .object({
+    swr: SwrOutput,
+    reflectionMagnitude: z.number(),
+    returnLossDb: ReturnLossOutput,
+    forwardPowerW: z.number().optional(),
+    reflectedPowerW: z.number().optional(),
+    netPowerW: z.number().optional(),
+  })
+  .meta({ id: 'EndFigures' });
+
+export const ReferResultSchema = z
+  .object({
+    source: EndFiguresSchema.meta({ description: 'At the transmitter end.' }),
+    load: EndFiguresSchema.meta({ description: 'At the antenna end.' }),
+    matchedLossDb: z.number(),
+    totalLossDb: z.number().nullable(),
+    lineDissipationW: z.number().optional(),
+  })
+  .meta({ id: 'ReferResult' });
+
+// ---------------------------------------------------------------- cables
+
+export const AttenuationModelSchema = z
+  .union([
+    z.object({ kind: z.literal('k1k2'), k1: z.number(), k2: z.number() }).meta({ description: 'loss dB/100 m = k1·√f + k2·f with f in MHz.' }),
+    z.object({ kind: z.literal('table'), points: z.array(z.object({ frequencyHz: z.number(), lossDbPer100m: z.number() })) }).meta({ description: 'Measured points; log-log interpolation between them.' }),
+  ])
+  .meta({ id: 'AttenuationModel' });
+
+export const CableSchema = z
+  .object({
+    id: z.string(),
+    designation: z.string().meta({ description: 'Generic trade designation.' }),
+    impedanceOhm: z.number(),
+    velocityFactor: z.number(),
+    attenuation: AttenuationModelSchema,
+    maxVoltageRmsV: z.number().nullable().meta({ description: 'Maximum operating voltage (RMS) where known.' }),
+    source: z.string().meta({ description: 'Where the figures come from.' }),
+    notes: z.string().optional(),
+  })
+  .meta({ id: 'Cable' });
+
+export const CableIdParamsSchema = z.object({ id: z.string().min(1).max(100) });
+
+export const CableAttenuationQuerySchema = z
+  .strictObject({
+    frequencyHz: z.coerce.number().positive().meta({ description: 'Frequency in hertz.', example: 14_200_000 }),
+    lengthM: z.coerce.number().min(0).optional().meta({ description: 'Length in metres (for `lossDb`).', example: 30 }),
+    lengthFt: z.coerce.number().min(0).optional().meta({ description: 'Length in feet (for `lossDb`).' }),
+  })
+  .superRefine((v, ctx) => {
+    if (v.lengthM !== undefined && v.lengthFt !== undefined) ctx.addIssue({ code: 'custom', path: ['lengthFt'], message: 'give lengthM or lengthFt, not both' });
+  });
+
+export const CableAttenuationSchema = z
+  .object({
+    cableId: z.string(),
+    frequencyHz: z.number(),
+    lossDbPer100m: z.number(),
+    lossDbPer100ft: z.number(),
+    lengthM: z.number().optional(),
+    lossDb: z.number().optional().meta({ description: 'Matched loss of the given length; present when a length was given.' }),
+  })
+  .meta({ id: 'CableAttenuation' });
+
+// ---------------------------------------------------------------- match
+
+export const MatchRequestSchema = z
+  .strictObject({
+    frequencyHz: FrequencyHz,
+    loadOhm: ImpedanceSchema.meta({ description: 'Load impedance to be matched.' }),
+    sourceOhm: ImpedanceSchema.default(50).meta({ description: 'Source impedance; the network presents its conjugate. Default 50.' }),
+  })
+  .meta({ id: 'MatchRequest', example: { frequencyHz: 3_650_000, loadOhm: { re: 12, im: -30 }, sourceOhm: 50 } });
+
+export const MatchElementSchema = z
+  .object({
+    position: z.enum(['series', 'shunt']),
+    kind: z.enum(['inductor', 'capacitor']),
+    reactanceOhm: z.number(),
+    valueH: z.number().optional(),
+    valueF: z.number().optional(),
+  })
+  .meta({ id: 'MatchElement' });
+
+export const MatchResultSchema = z
+  .object({
+    solutions: z.array(
+      z
+        .object({
+          topology: z.enum(['shuntAtLoad', 'seriesAtLoad']).meta({ description: '`shuntAtLoad`: shunt element across the load, series element toward the source; `seriesAtLoad`: the reverse.' }),
+          elements: z.array(MatchElementSchema).meta({ description: 'Ordered from the source to the load.' }),
+          inputOhm: ComplexSchema.meta({ description: 'Input impedance of network + load (the source\'s conjugate).' }),
+        })
+        .meta({ id: 'MatchSolution' }),
+    ),
+  })
+  .meta({ id: 'MatchResult' });

@@ -1,0 +1,2 @@
+export * from './common.ts';
+export * from './calc.ts';

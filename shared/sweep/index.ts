@@ -1,0 +1,6 @@
+export * from './errors.ts';
+export * from './points.ts';
+export * from './touchstone.ts';
+export * from './csv.ts';
+export * from './analyse.ts';
+export * from './move.ts';

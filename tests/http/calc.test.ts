@@ -1,0 +1,210 @@
+import request from 'supertest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { createTestApp } from '../helpers/app.ts';
+
+// These tests check the HTTP wiring of the calculation endpoints: validation (400 for malformed,
+// 422 for impossible), null for unbounded results, and that the numbers are the domain library's.
+// The numbers themselves are checked against outside references in tests/unit/rf.
+
+let ctx: Awaited<ReturnType<typeof createTestApp>>;
+const headers = (): Record<string, string> => ctx.auth;
+
+beforeAll(async () => {
+  ctx = await createTestApp();
+});
+afterAll(async () => {
+  await ctx.close();
+});
+
+function post(path: string, body: unknown) {
+  return request(ctx.app).post(`/api/v1${path}`).set(headers()).send(body as object);
+}
+
+describe('POST /api/v1/mismatch', () => {
+  it('converts forward/reflected power into every figure, with the net power', async () => {
+    // Common practice: 100 W forward, 4 W reflected → |Γ| = √0.04 = 0.2, SWR = 1.2/0.8 = 1.5.
+    const res = await post('/mismatch', { forwardPowerW: 100, reflectedPowerW: 4 }).expect(200);
+    expect(res.body.reflectionMagnitude).toBeCloseTo(0.2, 15);
+    expect(res.body.swr).toBeCloseTo(1.5, 14);
+    expect(res.body.netPowerW).toBe(96);
+    expect(res.body.transmittedPowerRatio).toBeCloseTo(0.96, 15);
+  });
+
+  it('answers null for the SWR of a total reflection and the return loss of a perfect match', async () => {
+    const total = await post('/mismatch', { reflectionMagnitude: 1 }).expect(200);
+    expect(total.body.swr).toBeNull();
+    expect(total.body.mismatchLossDb).toBeNull();
+    const perfect = await post('/mismatch', { swr: 1 }).expect(200);
+    expect(perfect.body.returnLossDb).toBeNull();
+    expect(perfect.body.mismatchLossDb).toBe(0);
+  });
+
+  describe('refuses impossible input with a 422 naming the field', () => {
+    it.each([
+      [{ swr: 0.9 }, 'swr'],
+      [{ forwardPowerW: 10, reflectedPowerW: 20 }, 'reflectedPowerW'],
+      [{ forwardPowerW: -1, reflectedPowerW: 0 }, 'forwardPowerW'],
+      [{ swr: 2, returnLossDb: 10 }, 'returnLossDb'],
+      [{ forwardPowerW: 10 }, 'reflectedPowerW'],
+      [{}, ''],
+    ])('%j → %s', async (body, field) => {
+      const res = await post('/mismatch', body).expect(422);
+      expect(res.headers['content-type']).toMatch(/application\/problem\+json/);
+      expect(res.body.errors.map((e: { field: string }) => e.field)).toContain(field);
+    });
+  });
+
+  describe('refuses malformed input with a 400', () => {
+    it.each([[{ swr: '1.5' }], [{ swr: 1.5, colour: 'red' }], [[1, 2]], [{ swr: null }]])('%j', async (body) => {
+      const res = await post('/mismatch', body).expect(400);
+      expect(res.body.type).toBe('urn:gammaline:problem:validation');
+      expect(res.body.errors.length).toBeGreaterThan(0);
+    });
+
+    it('wants JSON', async () => {
+      const res = await request(ctx.app).post('/api/v1/mismatch').set(headers()).set('Content-Type', 'text/plain').send('swr=2');
+      expect(res.status).toBe(415);
+      expect(res.headers['content-type']).toMatch(/application\/problem\+json/);
+    });
+  });
+});
+
+describe('POST /api/v1/reflection', () => {
+  it('computes Γ for a complex load on 50 Ω and inverts it back', async () => {
+    // Γ = (100 + j50 − 50)/(100 + j50 + 50) = (50 + j50)/(150 + j50) = 0.4 + j0.2 (hand calculation).
+    const res = await post('/reflection', { loadOhm: { re: 100, im: 50 } }).expect(200);
+    expect(res.body.reflection.re).toBeCloseTo(0.4, 14);
+    expect(res.body.reflection.im).toBeCloseTo(0.2, 14);
+    const back = await post('/reflection', { reflection: { re: 0.4, im: 0.2 }, referenceOhm: 50 }).expect(200);
+    expect(back.body.loadOhm.re).toBeCloseTo(100, 11);
+    expect(back.body.loadOhm.im).toBeCloseTo(50, 11);
+  });
+
+  it('accepts a plain number for a resistive load and refuses both forms at once', async () => {
+    const res = await post('/reflection', { loadOhm: 25 }).expect(200);
+    expect(res.body.reflection.re).toBeCloseTo(-1 / 3, 15);
+    await post('/reflection', { loadOhm: 25, reflection: { re: 0, im: 0 } }).expect(422);
+  });
+
+  it('refuses a negative load resistance with a 422', async () => {
+    const res = await post('/reflection', { loadOhm: { re: -5, im: 0 } }).expect(422);
+    expect(res.body.errors[0].field).toBe('loadOhm');
+  });
+});
+
+describe('POST /api/v1/line', () => {
+  it('returns the load unchanged through a zero-length line', async () => {
+    const res = await post('/line', { frequencyHz: 14e6, line: { impedanceOhm: 50, velocityFactor: 0.66, lossDbPer100m: 2, lengthM: 0 }, loadOhm: { re: 30, im: 20 } }).expect(200);
+    expect(res.body.inputOhm.re).toBeCloseTo(30, 12);
+    expect(res.body.inputOhm.im).toBeCloseTo(20, 12);
+  });
+
+  it('inverts the load through a lossless quarter-wave line: Zin = Z0²/ZL', async () => {
+    // Textbook quarter-wave transformer identity (e.g. Pozar, Microwave Engineering, §2.5).
+    const f = 10e6;
+    const quarterM = 299_792_458 / f / 4;
+    const res = await post('/line', { frequencyHz: f, line: { impedanceOhm: 50, velocityFactor: 1, lossDbPer100m: 0, lengthM: quarterM }, loadOhm: 100 }).expect(200);
+    expect(res.body.inputOhm.re).toBeCloseTo(25, 9);
+    expect(res.body.inputOhm.im).toBeCloseTo(0, 9);
+    expect(res.body.electricalLengthDeg).toBeCloseTo(90, 9);
+  });
+
+  it('accepts feet, a catalog cable and power, and reports powers and peaks', async () => {
+    const res = await post('/line', { frequencyHz: 14.2e6, line: { cableId: 'rg-213', lengthFt: 100 }, loadOhm: { re: 72, im: 18 }, powerW: 100 }).expect(200);
+    expect(res.body.power.inputW).toBeCloseTo(100, 9);
+    expect(res.body.power.loadW + res.body.power.lineDissipationW).toBeCloseTo(100, 9);
+    expect(res.body.peaks.maxVoltageV).toBeGreaterThan(0);
+    expect(Array.isArray(res.body.cautions)).toBe(true);
+  });
+
+  describe('refuses impossible lines with a 422 naming the field', () => {
+    it.each([
+      [{ impedanceOhm: 50, velocityFactor: 0.66, lossDbPer100m: 2, lengthM: 10, lengthFt: 30 }, 'line.lengthFt'],
+      [{ impedanceOhm: 50, velocityFactor: 1.2, lossDbPer100m: 2, lengthM: 10 }, 'line.velocityFactor'],
+      [{ impedanceOhm: 50, velocityFactor: 0.66, lengthM: 10 }, 'line.lossDbPer100m'],
+      [{ cableId: 'no-such-cable', lengthM: 10 }, 'line.cableId'],
+      [{ cableId: 'rg-213', impedanceOhm: 50, lengthM: 10 }, 'line.impedanceOhm'],
+      [{ impedanceOhm: 50, velocityFactor: 0.66, lossDbPer100m: 2, lengthM: -1 }, 'line.lengthM'],
+    ])('%j → %s', async (line, field) => {
+      const res = await post('/line', { frequencyHz: 14e6, line, loadOhm: 50 }).expect(422);
+      expect(res.body.errors.map((e: { field: string }) => e.field)).toContain(field);
+    });
+  });
+});
+
+describe('POST /api/v1/line/refer', () => {
+  it('moves a transmitter-end reading to the antenna through the matched loss', async () => {
+    // Handbook method: |Γ_load| = |Γ_source| / 10^(−L/10). 3 dB, SWR 1.5 (|Γ| 0.2) → |Γ_load| ≈ 0.399.
+    const res = await post('/line/refer', { matchedLossDb: 3, direction: 'sourceToLoad', reading: { swr: 1.5 } }).expect(200);
+    expect(res.body.load.reflectionMagnitude).toBeCloseTo(0.2 / 10 ** -0.3, 12);
+    expect(res.body.source.swr).toBeCloseTo(1.5, 12);
+  });
+
+  it('refuses readings that the stated loss makes impossible, saying why', async () => {
+    const res = await post('/line/refer', { matchedLossDb: 6, direction: 'sourceToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 30 } }).expect(422);
+    expect(res.body.errors[0].field).toBe('reading.reflectedPowerW');
+    expect(res.body.detail).toMatch(/cannot both be right/i);
+  });
+
+  it('takes the loss from a line description', async () => {
+    const res = await post('/line/refer', { frequencyHz: 7.1e6, line: { cableId: 'rg-58', lengthM: 40 }, direction: 'sourceToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 1 } }).expect(200);
+    expect(res.body.matchedLossDb).toBeGreaterThan(0);
+    expect(res.body.lineDissipationW).toBeGreaterThan(0);
+  });
+
+  it('wants either matchedLossDb or frequencyHz + line', async () => {
+    await post('/line/refer', { direction: 'sourceToLoad', reading: { swr: 2 } }).expect(422);
+    await post('/line/refer', { matchedLossDb: 1, frequencyHz: 1e6, direction: 'sourceToLoad', reading: { swr: 2 } }).expect(422);
+  });
+});
+
+describe('POST /api/v1/match', () => {
+  it('lists L-networks whose input is the source impedance', async () => {
+    const res = await post('/match', { frequencyHz: 3.65e6, loadOhm: { re: 12, im: -30 } }).expect(200);
+    expect(res.body.solutions.length).toBeGreaterThan(0);
+    for (const s of res.body.solutions) {
+      expect(s.inputOhm.re).toBeCloseTo(50, 8);
+      expect(s.inputOhm.im).toBeCloseTo(0, 8);
+    }
+  });
+});
+
+describe('the cable catalog', () => {
+  it('lists cables by trade designation with their source', async () => {
+    const res = await request(ctx.app).get('/api/v1/cables').set(headers()).expect(200);
+    expect(res.body.cables.length).toBeGreaterThanOrEqual(10);
+    for (const c of res.body.cables) expect(c.source.length).toBeGreaterThan(0);
+  });
+
+  it('answers one cable, and 404 for an unknown one', async () => {
+    await request(ctx.app).get('/api/v1/cables/rg-213').set(headers()).expect(200);
+    const res = await request(ctx.app).get('/api/v1/cables/xyz').set(headers()).expect(404);
+    expect(res.headers['content-type']).toMatch(/application\/problem\+json/);
+  });
+
+  it('computes the loss of a length at a frequency', async () => {
+    const res = await request(ctx.app).get('/api/v1/cables/rg-213/attenuation?frequencyHz=14200000&lengthM=50').set(headers()).expect(200);
+    expect(res.body.lossDb).toBeCloseTo(res.body.lossDbPer100m / 2, 12);
+    expect(res.body.lossDbPer100ft).toBeCloseTo(res.body.lossDbPer100m * 0.3048, 12);
+  });
+
+  it('refuses a missing or non-numeric frequency', async () => {
+    await request(ctx.app).get('/api/v1/cables/rg-213/attenuation').set(headers()).expect(400);
+    await request(ctx.app).get('/api/v1/cables/rg-213/attenuation?frequencyHz=abc').set(headers()).expect(400);
+    await request(ctx.app).get('/api/v1/cables/rg-213/attenuation?frequencyHz=-5').set(headers()).expect(422);
+  });
+});
+
+describe('the OpenAPI document', () => {
+  it('describes every calculation endpoint with an example', async () => {
+    const res = await request(ctx.app).get('/api/v1/openapi.json').expect(200);
+    for (const path of ['/api/v1/mismatch', '/api/v1/reflection', '/api/v1/line', '/api/v1/line/refer', '/api/v1/match']) {
+      const op = res.body.paths[path].post;
+      expect(op.description.length).toBeGreaterThan(20);
+      const ref: string = op.requestBody.content['application/json'].schema.$ref;
+      const schema = res.body.components.schemas[ref.split('/').pop()!];
+      expect(schema.example).toBeDefined();
+    }
+    expect(res.body.paths['/api/v1/cables/{id}/attenuation'].get).toBeDefined();
+  });
+});
