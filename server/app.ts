@@ -13,12 +13,16 @@ import { healthRouter } from './api/health.routes.ts';
 import { v1Router } from './api/v1/router.ts';
 import { notFoundHandler, problemErrorHandler } from './http/error-middleware.ts';
 import { openApiDocument } from './openapi/document.ts';
+import { sessionMiddleware } from './auth/session.ts';
+import { createLogOnlyMailer, type Mailer } from './mail/mailer.ts';
 
 export interface AppDependencies {
   database: Database;
   config: AppConfig;
   clock?: Clock;
   logger?: Logger;
+  /** Outgoing mail; index.ts passes SMTP_URL's or the local capture server's. Without one, mail is logged and dropped. */
+  mailer?: Mailer;
 }
 
 const REQUEST_ID_PATTERN = /^[A-Za-z0-9._-]{1,64}$/;
@@ -26,9 +30,17 @@ const REQUEST_ID_PATTERN = /^[A-Za-z0-9._-]{1,64}$/;
 /** Builds the whole HTTP application from its dependencies; listening is the caller's business. */
 export function createApp(deps: AppDependencies): Express {
   const logger = deps.logger ?? pino({ level: deps.config.logLevel });
-  const ctx: AppContext = { database: deps.database, config: deps.config, clock: deps.clock ?? systemClock, logger };
+  const ctx: AppContext = {
+    database: deps.database,
+    config: deps.config,
+    clock: deps.clock ?? systemClock,
+    logger,
+    mailer: deps.mailer ?? createLogOnlyMailer(logger),
+  };
   const app = express();
   app.disable('x-powered-by');
+  // Behind a reverse proxy, client addresses (sign-in throttling) and https (Secure cookies) come from its headers.
+  if (deps.config.trustProxy > 0) app.set('trust proxy', deps.config.trustProxy);
 
   app.use(
     pinoHttp({
@@ -50,6 +62,8 @@ export function createApp(deps: AppDependencies): Express {
   app.get('/api/v1/openapi.json', (_req, res) => {
     res.json(openApiDocument());
   });
+  // Only the API reads the console session; static files and docs never touch the session table.
+  app.use('/api/v1', sessionMiddleware(ctx));
   app.use('/api/v1', v1Router(ctx));
   app.use('/api', notFoundHandler);
   app.use('/docs', swaggerUi.serve, swaggerUi.setup(openApiDocument(), { customSiteTitle: 'Gammaline API reference' }));

@@ -1,6 +1,7 @@
 import type { Logger } from 'pino';
 import type { AppConfig } from './config.ts';
 import type { Database } from './db/client.ts';
+import type { Mailer } from './mail/mailer.ts';
 
 export interface Clock {
   now(): Date;
@@ -14,4 +15,6 @@ export interface AppContext {
   config: AppConfig;
   clock: Clock;
   logger: Logger;
+  /** Outgoing mail: the local capture server in local mode, SMTP_URL otherwise. */
+  mailer: Mailer;
 }

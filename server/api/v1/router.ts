@@ -1,11 +1,34 @@
 import { Router } from 'express';
 import type { AppContext } from '../../context.ts';
+import { calculationGuard, requireCaller } from '../../auth/caller.ts';
+import { calcRouter } from './calc/calc.routes.ts';
+// Imported in the order the OpenAPI document lists them (registration happens at import).
+import { sessionRouter } from './session/session.routes.ts';
+import { passwordResetRouter } from './password-reset/password-reset.routes.ts';
+import { keysRouter } from './keys/keys.routes.ts';
+import { usageRouter } from './usage/usage.routes.ts';
+import { membersRouter } from './members/members.routes.ts';
+import { invitationsRouter } from './invitations/invitations.routes.ts';
+import { organisationRouter } from './organisation/organisation.routes.ts';
+import { auditRouter } from './audit/audit.routes.ts';
+import { mailRouter } from './mail/mail.routes.ts';
 
 /**
  * Version 1 of the API, mounted once at `/api/v1`. Each resource module registers its OpenAPI paths
  * when imported and contributes a router here.
  */
-export function v1Router(_ctx: AppContext): Router {
+export function v1Router(ctx: AppContext): Router {
   const router = Router();
+  // Every calculation route needs a key or a console session; metered ones also spend quota.
+  router.use(calcRouter(ctx, { guard: (endpoint, { metered }) => (metered ? calculationGuard(ctx, endpoint) : [requireCaller(ctx)]) }));
+  router.use(sessionRouter(ctx));
+  router.use(passwordResetRouter(ctx));
+  router.use(keysRouter(ctx));
+  router.use(usageRouter(ctx));
+  router.use(membersRouter(ctx));
+  router.use(invitationsRouter(ctx));
+  router.use(organisationRouter(ctx));
+  router.use(auditRouter(ctx));
+  router.use(mailRouter(ctx));
   return router;
 }

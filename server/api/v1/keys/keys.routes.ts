@@ -1,0 +1,190 @@
+import { Router } from 'express';
+import type { AppContext } from '../../../context.ts';
+import { callerOf, requireSession } from '../../../auth/caller.ts';
+import { authProblems, sessionOnly } from '../../../auth/openapi.ts';
+import { ApiError } from '../../../http/problem.ts';
+import { validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
+import { problemResponses, registry } from '../../../openapi/registry.ts';
+import { utcDay } from '../../../quota/day.ts';
+import { memberActor } from '../members/members.repository.ts';
+import { findKey, listKeys } from './keys.repository.ts';
+import {
+  ApiKeyListSchema,
+  ApiKeySchema,
+  CreateApiKeySchema,
+  CreatedApiKeySchema,
+  KeyIdParamsSchema,
+  ListKeysQuerySchema,
+  UpdateApiKeySchema,
+  type CreateApiKey,
+  type UpdateApiKey,
+} from './keys.schemas.ts';
+import { createKey, revokeKey, updateKey } from './keys.service.ts';
+
+const tags = ['Keys'];
+const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
+
+registry.registerPath({
+  method: 'get',
+  path: '/api/v1/keys',
+  tags,
+  summary: 'List keys',
+  description: 'Developers see their own keys; admins see every key of the organisation (optionally one owner\'s). Secrets are never listed.',
+  security: sessionOnly,
+  request: { query: ListKeysQuerySchema },
+  responses: { 200: { description: 'The keys, oldest first.', ...json(ApiKeyListSchema) }, ...problemResponses.validation, ...authProblems.unauthenticated, ...authProblems.forbidden },
+});
+
+registry.registerPath({
+  method: 'post',
+  path: '/api/v1/keys',
+  tags,
+  summary: 'Issue a key',
+  description:
+    'Issues a key for yourself, or (admins) for any member. The answer holds the secret; it is shown this once. ' +
+    'Quota fields are for admins; without them the key gets the organisation defaults. Audited.',
+  security: sessionOnly,
+  request: { body: { required: true, ...json(CreateApiKeySchema) } },
+  responses: {
+    201: { description: 'The key and its secret (shown once).', ...json(CreatedApiKeySchema) },
+    ...problemResponses.validation,
+    ...authProblems.unauthenticated,
+    ...authProblems.forbidden,
+    ...problemResponses.notFound,
+    ...authProblems.conflict,
+    ...problemResponses.unprocessable,
+  },
+});
+
+registry.registerPath({
+  method: 'get',
+  path: '/api/v1/keys/{id}',
+  tags,
+  summary: 'Read a key',
+  security: sessionOnly,
+  request: { params: KeyIdParamsSchema },
+  responses: { 200: { description: 'The key.', ...json(ApiKeySchema) }, ...problemResponses.validation, ...authProblems.unauthenticated, ...authProblems.forbidden, ...problemResponses.notFound },
+});
+
+registry.registerPath({
+  method: 'patch',
+  path: '/api/v1/keys/{id}',
+  tags,
+  summary: 'Rename a key or change its limits',
+  description: 'Owners may change name and note; only admins may change `dailyQuota` and `burstPerMinute` (audited). New limits apply from the next request.',
+  security: sessionOnly,
+  request: { params: KeyIdParamsSchema, body: { required: true, ...json(UpdateApiKeySchema) } },
+  responses: {
+    200: { description: 'The key after the change.', ...json(ApiKeySchema) },
+    ...problemResponses.validation,
+    ...authProblems.unauthenticated,
+    ...authProblems.forbidden,
+    ...problemResponses.notFound,
+  },
+});
+
+registry.registerPath({
+  method: 'delete',
+  path: '/api/v1/keys/{id}',
+  tags,
+  summary: 'Revoke a key',
+  description: 'Revocation is immediate and final; the key stays listed as `revoked`. Audited.',
+  security: sessionOnly,
+  request: { params: KeyIdParamsSchema },
+  responses: {
+    200: { description: 'The revoked key.', ...json(ApiKeySchema) },
+    ...problemResponses.validation,
+    ...authProblems.unauthenticated,
+    ...authProblems.forbidden,
+    ...problemResponses.notFound,
+  },
+});
+
+export function keysRouter(ctx: AppContext): Router {
+  const router = Router();
+  const session = requireSession(ctx);
+
+  router.get('/keys', session, validateQuery(ListKeysQuerySchema), async (_req, res) => {
+    const caller = callerOf(res);
+    const query = res.locals.query as { ownerId?: string };
+    const now = ctx.clock.now();
+    const userId = caller.role === 'admin' ? query.ownerId : caller.userId;
+    const keys = await listKeys(ctx.database.db, { organisationId: caller.organisationId, userId, now, day: utcDay(now) });
+    res.json({ keys });
+  });
+
+  router.post('/keys', session, validateBody(CreateApiKeySchema), async (_req, res) => {
+    const caller = callerOf(res);
+    const body = res.locals.body as CreateApiKey;
+    if (caller.role !== 'admin') {
+      if (body.ownerId && body.ownerId !== caller.userId) throw new ApiError('forbidden', 'Developers issue keys for themselves only; leave out ownerId or ask an admin.');
+      if (body.dailyQuota !== undefined || body.burstPerMinute !== undefined) {
+        throw new ApiError('forbidden', 'Only admins set quotas; leave out dailyQuota and burstPerMinute to get the organisation defaults.');
+      }
+    }
+    const created = await createKey(
+      ctx.database.db,
+      {
+        organisationId: caller.organisationId,
+        ownerId: body.ownerId ?? caller.userId,
+        name: body.name,
+        note: body.note,
+        expiresAt: body.expiresAt ? new Date(body.expiresAt) : undefined,
+        dailyQuota: body.dailyQuota,
+        burstPerMinute: body.burstPerMinute,
+        actor: await memberActor(ctx.database.db, caller),
+      },
+      ctx.clock.now(),
+    );
+    res.status(201).setHeader('Cache-Control', 'no-store').json(created);
+  });
+
+  router.get('/keys/:id', session, validateParams(KeyIdParamsSchema), async (_req, res) => {
+    const caller = callerOf(res);
+    const { id } = res.locals.params as { id: string };
+    const now = ctx.clock.now();
+    const key = await findKey(ctx.database.db, {
+      organisationId: caller.organisationId,
+      keyId: id,
+      userId: caller.role === 'admin' ? undefined : caller.userId,
+      now,
+      day: utcDay(now),
+    });
+    if (!key) throw new ApiError('notFound', 'No key with that id among the keys you manage; GET /api/v1/keys lists them.');
+    res.json(key);
+  });
+
+  router.patch('/keys/:id', session, validateParams(KeyIdParamsSchema), validateBody(UpdateApiKeySchema), async (_req, res) => {
+    const caller = callerOf(res);
+    const { id } = res.locals.params as { id: string };
+    const changes = res.locals.body as UpdateApiKey;
+    if (caller.role !== 'admin' && (changes.dailyQuota !== undefined || changes.burstPerMinute !== undefined)) {
+      throw new ApiError('forbidden', 'Only admins change quotas; ask an admin of your organisation.');
+    }
+    const key = await updateKey(
+      ctx.database.db,
+      {
+        organisationId: caller.organisationId,
+        keyId: id,
+        ownerId: caller.role === 'admin' ? undefined : caller.userId,
+        actor: await memberActor(ctx.database.db, caller),
+        changes,
+      },
+      ctx.clock.now(),
+    );
+    res.json(key);
+  });
+
+  router.delete('/keys/:id', session, validateParams(KeyIdParamsSchema), async (_req, res) => {
+    const caller = callerOf(res);
+    const { id } = res.locals.params as { id: string };
+    const key = await revokeKey(
+      ctx.database.db,
+      { organisationId: caller.organisationId, keyId: id, ownerId: caller.role === 'admin' ? undefined : caller.userId, actor: await memberActor(ctx.database.db, caller) },
+      ctx.clock.now(),
+    );
+    res.json(key);
+  });
+
+  return router;
+}

@@ -1,0 +1,75 @@
+import { z } from '../../../zod.ts';
+
+export const KEY_STATES = ['active', 'revoked', 'expired', 'owner-disabled'] as const;
+
+export const MemberRefSchema = z
+  .object({
+    id: z.uuid(),
+    email: z.string().openapi({ example: 'ines.marlow@kestrel-ridge.example' }),
+    displayName: z.string().openapi({ example: 'Ines Marlow' }),
+  })
+  .openapi('MemberRef', { description: 'A member, as shown next to things they own.' });
+
+export const ApiKeySchema = z
+  .object({
+    id: z.uuid().openapi({ example: '1b7d6f3e-2d55-4c1e-9d0a-2f3c4b5a6978' }),
+    name: z.string().openapi({ example: 'Shack logger' }),
+    note: z.string().openapi({ example: 'Runs on the club laptop at the ridge hut.' }),
+    displayStart: z.string().openapi({ description: 'First characters of the key, to recognise it; the key itself is never shown again.', example: 'gml_Xq3v9A' }),
+    owner: MemberRefSchema,
+    dailyQuota: z.number().int().openapi({ description: 'Calculation units per UTC day.', example: 10000 }),
+    burstPerMinute: z.number().int().openapi({ description: 'Requests per minute, whatever they cost.', example: 120 }),
+    usedToday: z.number().int().openapi({ description: 'Units spent so far today (UTC).', example: 42 }),
+    state: z.enum(KEY_STATES).openapi({ description: '`active` keys work; the others are refused with 401.', example: 'active' }),
+    expiresAt: z.string().nullable().openapi({ description: 'ISO 8601 instant after which the key is refused; null: never.', example: null }),
+    revokedAt: z.string().nullable().openapi({ example: null }),
+    createdAt: z.string().openapi({ example: '2026-03-14T09:30:00.000Z' }),
+    createdById: z.uuid().nullable().openapi({ description: 'Member who created the key; null when created with the CLI.' }),
+  })
+  .openapi('ApiKey', { description: 'An API key without its secret.' });
+
+export const ApiKeyListSchema = z.object({ keys: z.array(ApiKeySchema) }).openapi('ApiKeyList');
+
+export const CreatedApiKeySchema = z
+  .object({
+    key: ApiKeySchema,
+    secret: z.string().openapi({
+      description: 'The key to send as `Authorization: Bearer <secret>`. Shown this once: only its SHA-256 hash is stored.',
+      example: 'gml_Xq3v9AbCdEfGhIjKlMnOpQrStUvWxYz0123456789-_',
+    }),
+  })
+  .openapi('CreatedApiKey');
+
+const Quota = z.number().int().min(1).max(100_000_000).openapi({ description: 'Calculation units per UTC day (admins only).', example: 5000 });
+const Burst = z.number().int().min(1).max(1_000_000).openapi({ description: 'Requests per minute (admins only).', example: 60 });
+
+export const CreateApiKeySchema = z
+  .strictObject({
+    name: z.string().trim().min(1, 'give the key a name, e.g. the program that will use it').max(100).openapi({ example: 'Shack logger' }),
+    note: z.string().max(500).default('').openapi({ example: 'Runs on the club laptop at the ridge hut.' }),
+    expiresAt: z.iso.datetime({ offset: true, message: 'use an ISO 8601 instant such as 2026-12-31T23:59:59Z' }).optional().openapi({ example: '2026-12-31T23:59:59Z' }),
+    ownerId: z.uuid().optional().openapi({ description: 'Member who will own the key (admins only; default: yourself).' }),
+    dailyQuota: Quota.optional(),
+    burstPerMinute: Burst.optional(),
+  })
+  .openapi('CreateApiKey', { description: 'Without quota fields the key gets the organisation defaults.' });
+
+export const UpdateApiKeySchema = z
+  .strictObject({
+    name: z.string().trim().min(1).max(100).optional(),
+    note: z.string().max(500).optional(),
+    dailyQuota: Quota.optional(),
+    burstPerMinute: Burst.optional(),
+  })
+  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one of name, note, dailyQuota, burstPerMinute' })
+  .openapi('UpdateApiKey');
+
+export const KeyIdParamsSchema = z.object({ id: z.uuid({ message: 'key ids are UUIDs, as listed by GET /api/v1/keys' }) });
+
+export const ListKeysQuerySchema = z.strictObject({
+  ownerId: z.uuid().optional().openapi({ description: 'Only keys of this member (admins; developers always see only their own).' }),
+});
+
+export type ApiKeyView = z.infer<typeof ApiKeySchema>;
+export type CreateApiKey = z.infer<typeof CreateApiKeySchema>;
+export type UpdateApiKey = z.infer<typeof UpdateApiKeySchema>;

@@ -1,0 +1,241 @@
+import type { NextFunction, Request, RequestHandler, Response } from 'express';
+import { rateLimit, type RateLimitInfo } from 'express-rate-limit';
+import { eq } from 'drizzle-orm';
+import type { AppContext } from '../context.ts';
+import { organisations, users } from '../db/schema.ts';
+import { ApiError } from '../http/problem.ts';
+import { SECONDS_PER_DAY, secondsUntilUtcMidnight, utcDay } from '../quota/day.ts';
+import { PgRateLimitStore } from '../quota/pg-rate-limit-store.ts';
+import { recordConsoleUsage, spendKeyUnits } from '../quota/quota.repository.ts';
+import { sendQuotaWarnings } from '../quota/warnings.ts';
+import { csrfSatisfied } from './session.ts';
+import { verifyApiKey } from './verify-key.ts';
+
+/** Who is calling: a key (integrations) or a signed-in console session. */
+export type Caller = {
+  kind: 'key' | 'session';
+  userId: string;
+  organisationId: string;
+  role: 'admin' | 'developer';
+  keyId?: string;
+};
+
+/** What the meter needs about the caller, loaded with it so the meter does not look it up again. */
+interface CallerLimits {
+  burstPerMinute: number;
+  key?: { id: string; name: string; displayStart: string; dailyQuota: number; ownerEmail: string };
+}
+
+declare global {
+  namespace Express {
+    interface Locals {
+      caller?: Caller;
+      callerLimits?: CallerLimits;
+    }
+  }
+}
+
+const UNAUTHENTICATED_DETAIL =
+  'Send a valid API key as `Authorization: Bearer <key>`, or sign in to the console (POST /api/v1/session). ' +
+  'Keys are issued under /api/v1/keys or with `npm run keys -- create`.';
+
+/** One answer for missing, malformed, unknown, revoked, expired keys and disabled owners (RFC 6750 §3). */
+function unauthenticated(): ApiError {
+  return new ApiError('unauthenticated', UNAUTHENTICATED_DETAIL, { headers: { 'WWW-Authenticate': 'Bearer realm="gammaline"' } });
+}
+
+async function callerFromKey(ctx: AppContext, req: Request, res: Response, header: string): Promise<Caller> {
+  const match = /^Bearer[ ]+(\S+)\s*$/i.exec(header);
+  if (!match?.[1]) throw unauthenticated();
+  const verified = await verifyApiKey(ctx.database.db, match[1], ctx.clock.now());
+  if (verified.outcome !== 'valid') {
+    // The outcome is for operators' logs only; the caller always gets the same 401.
+    req.log?.info({ keyOutcome: verified.outcome }, 'key refused');
+    throw unauthenticated();
+  }
+  const k = verified.key;
+  res.locals.callerLimits = {
+    burstPerMinute: k.burstPerMinute,
+    key: { id: k.keyId, name: k.name, displayStart: k.displayStart, dailyQuota: k.dailyQuota, ownerEmail: k.ownerEmail },
+  };
+  return { kind: 'key', userId: k.userId, organisationId: k.organisationId, role: k.role, keyId: k.keyId };
+}
+
+async function callerFromSession(ctx: AppContext, req: Request, res: Response): Promise<Caller | undefined> {
+  const userId = req.session?.userId;
+  if (!userId) return undefined;
+  const rows = await ctx.database.db
+    .select({
+      id: users.id,
+      organisationId: users.organisationId,
+      role: users.role,
+      disabled: users.disabled,
+      burstPerMinute: organisations.defaultBurstPerMinute,
+    })
+    .from(users)
+    .innerJoin(organisations, eq(organisations.id, users.organisationId))
+    .where(eq(users.id, userId));
+  const member = rows[0];
+  if (!member || member.disabled) {
+    // A disabled or removed member loses the session at once, not when the cookie expires.
+    await new Promise<void>((resolve) => req.session.destroy(() => resolve()));
+    return undefined;
+  }
+  if (!csrfSatisfied(req)) {
+    throw new ApiError('forbidden', 'Console writes need the X-CSRF-Token header with the csrfToken from GET /api/v1/session (or the sign-in answer).');
+  }
+  res.locals.callerLimits = { burstPerMinute: member.burstPerMinute };
+  return { kind: 'session', userId: member.id, organisationId: member.organisationId, role: member.role };
+}
+
+/**
+ * Resolves `Authorization: Bearer <key>` or the console session into `res.locals.caller`.
+ * A Bearer header wins over a cookie and needs no CSRF token (browsers never add it on their own).
+ */
+export function requireCaller(ctx: AppContext): RequestHandler {
+  return async (req, res, next) => {
+    const header = req.get('authorization');
+    const caller = header !== undefined ? await callerFromKey(ctx, req, res, header) : await callerFromSession(ctx, req, res);
+    if (!caller) throw unauthenticated();
+    res.locals.caller = caller;
+    next();
+  };
+}
+
+/**
+ * Console-only routes (managing keys, members, invitations): a key cannot mint more keys or
+ * change roles, so a leaked key stays a calculation key.
+ */
+export function requireSession(ctx: AppContext): RequestHandler {
+  return async (req, res, next) => {
+    if (req.get('authorization') !== undefined) {
+      throw new ApiError('forbidden', 'This route is for the console: sign in with POST /api/v1/session and send the session cookie instead of a key.');
+    }
+    const caller = await callerFromSession(ctx, req, res);
+    if (!caller) throw new ApiError('unauthenticated', 'Sign in first: POST /api/v1/session with your e-mail and password.');
+    res.locals.caller = caller;
+    next();
+  };
+}
+
+/** Admin-only routes; runs after requireCaller/requireSession. */
+export const requireAdmin: RequestHandler = (_req, res, next) => {
+  if (res.locals.caller?.role !== 'admin') throw new ApiError('forbidden', 'Only admins of the organisation can do this; ask one of them.');
+  next();
+};
+
+/** The caller set by requireCaller/requireSession; a programming error if a route forgot them. */
+export function callerOf(res: Response): Caller {
+  const caller = res.locals.caller;
+  if (!caller) throw new Error('route is missing requireCaller/requireSession');
+  return caller;
+}
+
+const BURST_WINDOW_MS = 60_000;
+
+/** One burst limiter per app: every metered endpoint shares a caller's per-minute allowance. */
+const burstLimiters = new WeakMap<AppContext, RequestHandler>();
+
+function burstLimiter(ctx: AppContext): RequestHandler {
+  let limiter = burstLimiters.get(ctx);
+  if (limiter) return limiter;
+  limiter = rateLimit({
+    windowMs: BURST_WINDOW_MS,
+    limit: (_req, res) => (res.locals.callerLimits as CallerLimits).burstPerMinute,
+    keyGenerator: (_req, res) => {
+      const caller = res.locals.caller as Caller;
+      return caller.keyId ? `key:${caller.keyId}` : `member:${caller.userId}`;
+    },
+    identifier: 'burst',
+    standardHeaders: 'draft-8',
+    legacyHeaders: false,
+    store: new PgRateLimitStore(ctx.database.pool, 'burst:'),
+    handler: (req, _res, next) => {
+      const info = (req as Request & { rateLimit?: RateLimitInfo }).rateLimit;
+      const waitS = info?.resetTime ? Math.max(1, Math.ceil((info.resetTime.getTime() - Date.now()) / 1000)) : 60;
+      next(
+        new ApiError('tooManyRequests', `More than ${info?.limit ?? '?'} requests in a minute; wait ${waitS} s (Retry-After) or spread the calls out.`, {
+          headers: { 'Retry-After': String(waitS) },
+        }),
+      );
+    },
+  });
+  burstLimiters.set(ctx, limiter);
+  return limiter;
+}
+
+function unitsOf(units: ((req: Request, res: Response) => number) | undefined, req: Request, res: Response): number {
+  if (!units) return 1;
+  const n = units(req, res);
+  return Number.isFinite(n) && n >= 1 ? Math.floor(n) : 1;
+}
+
+async function spend(ctx: AppContext, endpoint: string, units: number, req: Request, res: Response): Promise<void> {
+  const caller = res.locals.caller as Caller;
+  const limits = res.locals.callerLimits as CallerLimits;
+  const now = ctx.clock.now();
+  const day = utcDay(now);
+  const key = limits.key;
+  if (caller.kind === 'session' || !key) {
+    await recordConsoleUsage(ctx.database.db, { organisationId: caller.organisationId, userId: caller.userId, endpoint, day, units });
+    return;
+  }
+  const result = await spendKeyUnits(ctx.database.db, {
+    keyId: key.id,
+    organisationId: caller.organisationId,
+    userId: caller.userId,
+    endpoint,
+    day,
+    units,
+    quota: key.dailyQuota,
+  });
+  const resetS = secondsUntilUtcMidnight(now);
+  const remaining = Math.max(0, key.dailyQuota - result.used);
+  res.append('RateLimit-Policy', `"daily"; q=${key.dailyQuota}; w=${SECONDS_PER_DAY}`);
+  res.append('RateLimit', `"daily"; r=${remaining}; t=${resetS}`);
+  if (!result.admitted) {
+    const need = units > 1 ? ` This request needs ${units} units and ${remaining} remain.` : '';
+    throw new ApiError(
+      'tooManyRequests',
+      `Key ${key.displayStart}… has spent its ${key.dailyQuota} calculation units for ${day} (UTC).${need} ` +
+        `The quota starts again at 00:00 UTC, in ${resetS} s; an admin can raise it.`,
+      { headers: { 'Retry-After': String(resetS) } },
+    );
+  }
+  sendQuotaWarnings(ctx, { key, day, used: result.used, warned80: result.warned80, warned100: result.warned100 });
+}
+
+/**
+ * Admits a calculation or refuses it before any work: first the per-minute burst limit
+ * (express-rate-limit, store in PostgreSQL), then the key's daily quota, spent atomically.
+ * `units` is how many calculation units the request costs (default 1; a batch passes its item count);
+ * a request whose units do not fit is refused whole with 429.
+ *
+ * Console (session) calls are recorded as the member's own usage (key null) and limited by the
+ * organisation's per-minute burst limit; they spend no key quota.
+ *
+ * Units are spent when the request is admitted, before the route validates its body: a request that
+ * then fails validation has still cost its units (as with any per-request rate limit). Burst refusals
+ * spend no daily units.
+ */
+export function meterCalculation(ctx: AppContext, endpoint: string, units?: (req: Request, res: Response) => number): RequestHandler {
+  const burst = burstLimiter(ctx);
+  return (req: Request, res: Response, next: NextFunction) => {
+    if (!res.locals.caller || !res.locals.callerLimits) {
+      next(new Error('meterCalculation must run after requireCaller'));
+      return;
+    }
+    void burst(req, res, (err?: unknown) => {
+      if (err) {
+        next(err);
+        return;
+      }
+      spend(ctx, endpoint, unitsOf(units, req, res), req, res).then(() => next(), next);
+    });
+  };
+}
+
+/** `[requireCaller, meterCalculation]` for a calculation route. */
+export function calculationGuard(ctx: AppContext, endpoint: string, units?: (req: Request, res: Response) => number): RequestHandler[] {
+  return [requireCaller(ctx), meterCalculation(ctx, endpoint, units)];
+}

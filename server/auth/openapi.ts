@@ -1,0 +1,59 @@
+import { ProblemSchema } from '../http/problem.ts';
+import { registry } from '../openapi/registry.ts';
+import { z } from '../zod.ts';
+import { SESSION_COOKIE } from './session.ts';
+
+registry.registerComponent('securitySchemes', 'apiKey', {
+  type: 'http',
+  scheme: 'bearer',
+  bearerFormat: 'gml_ followed by 43 base64url characters',
+  description: 'An API key sent as `Authorization: Bearer <key>`. Issue keys under /api/v1/keys (console) or with `npm run keys -- create`.',
+});
+
+registry.registerComponent('securitySchemes', 'consoleSession', {
+  type: 'apiKey',
+  in: 'cookie',
+  name: SESSION_COOKIE,
+  description:
+    'The console session cookie set by POST /api/v1/session. Writes with it must also send `X-CSRF-Token` with the `csrfToken` from the sign-in answer or GET /api/v1/session.',
+});
+
+/** A calculation or read route: a key or the console session. */
+export const keyOrSession: Record<string, string[]>[] = [{ apiKey: [] }, { consoleSession: [] }];
+/** Console-only routes (managing keys, members, invitations). */
+export const sessionOnly: Record<string, string[]>[] = [{ consoleSession: [] }];
+
+const problemContent = { 'application/problem+json': { schema: ProblemSchema } };
+
+const retryAfter = z.string().openapi({ description: 'Seconds to wait before trying again.', example: '3600' });
+
+/** Problem responses of authenticated routes, to spread into `responses`. */
+export const authProblems = {
+  unauthenticated: {
+    401: {
+      description: 'No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same.',
+      content: problemContent,
+    },
+  },
+  forbidden: { 403: { description: 'Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token.', content: problemContent } },
+  conflict: { 409: { description: 'The change conflicts with the current state (the detail says which).', content: problemContent } },
+  tooManyRequests: {
+    429: {
+      description: 'The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds.',
+      headers: z.object({ 'Retry-After': retryAfter }),
+      content: problemContent,
+    },
+  },
+} as const;
+
+/**
+ * Header fields of a metered response (IETF draft-ietf-httpapi-ratelimit-headers): one `"burst"` item
+ * (per minute) and, for keys, one `"daily"` item (UTC day).
+ */
+export const rateLimitHeaders = z.object({
+  'RateLimit-Policy': z.string().openapi({ description: 'The limits that apply.', example: '"burst"; q=120; w=60; pk=:ZmY3MmE2:, "daily"; q=10000; w=86400' }),
+  RateLimit: z.string().openapi({ description: 'What remains of each limit (`r`) and seconds until it resets (`t`).', example: '"burst"; r=119; t=60, "daily"; r=9958; t=40210' }),
+});
+
+/** For calculation routes: spread into `responses` next to the route's own. */
+export const meteredProblems = { ...authProblems.unauthenticated, ...authProblems.forbidden, ...authProblems.tooManyRequests };

@@ -1,0 +1,184 @@
+import request from 'supertest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { RESET_MAILS_PER_ACCOUNT } from '../../server/auth/throttle.ts';
+import { createTestApp, manualClock, TEST_DEVELOPER, type TestApp } from '../helpers/app.ts';
+
+// Single-use, expiring, hashed tokens for invitations and resets, and a reset answer that does not
+// reveal whether an address exists: OWASP forgot password cheat sheet. Every mail is read back through
+// the local capture server, as an admin would in the console.
+
+let ctx: TestApp;
+let admin: Awaited<ReturnType<TestApp['adminAgent']>>;
+const clock = manualClock(new Date());
+
+beforeAll(async () => {
+  ctx = await createTestApp({ publicUrl: 'http://gammaline.test' }, { clock });
+  admin = await ctx.adminAgent();
+});
+afterAll(async () => {
+  await ctx.close();
+});
+
+async function mailsTo(address: string) {
+  const res = await admin.get(`/api/v1/mail?to=${encodeURIComponent(address)}`).expect(200);
+  return res.body.messages as { id: string; subject: string; to: string[]; from: string }[];
+}
+
+async function tokenFromLatestMail(address: string, path: string): Promise<string> {
+  const [latest] = await mailsTo(address);
+  expect(latest).toBeDefined();
+  const message = await admin.get(`/api/v1/mail/${latest!.id}`).expect(200);
+  const match = new RegExp(`http://gammaline\\.test${path}\\?token=([A-Za-z0-9_-]{43})`).exec(message.body.text as string);
+  expect(match, message.body.text).not.toBeNull();
+  return match![1]!;
+}
+
+describe('the invitation flow', () => {
+  const email = 'oskar.brandt@kestrel-ridge.example';
+
+  it('sends a link by e-mail, creates the member from it once, and the member can sign in', async () => {
+    const sent = await admin.post('/api/v1/invitations').send({ email, role: 'developer' }).expect(201);
+    expect(sent.body).toMatchObject({ email, role: 'developer', state: 'pending' });
+    expect(JSON.stringify(sent.body)).not.toMatch(/token/i);
+
+    const [mail] = await mailsTo(email);
+    expect(mail).toMatchObject({ subject: 'You are invited to Kestrel Ridge Radio Club on Gammaline', to: [email], from: 'no-reply@gammaline.example' });
+    const token = await tokenFromLatestMail(email, '/invitation');
+
+    const joined = await request(ctx.app).post('/api/v1/invitations/accept').send({ token, displayName: 'Oskar Brandt', password: 'ridge line at dawn' }).expect(201);
+    expect(joined.body).toMatchObject({ email, displayName: 'Oskar Brandt', role: 'developer', disabled: false });
+    await request(ctx.app).post('/api/v1/session').send({ email, password: 'ridge line at dawn' }).expect(200);
+
+    const again = await request(ctx.app).post('/api/v1/invitations/accept').send({ token, displayName: 'Someone Else', password: 'another long phrase' }).expect(422);
+    expect(again.body.detail).toMatch(/Ask an admin to invite you again/);
+    const list = await admin.get('/api/v1/invitations').expect(200);
+    expect(list.body.invitations.find((i: { email: string }) => i.email === email).state).toBe('accepted');
+  });
+
+  it('refuses to invite an address that already has an account (409)', async () => {
+    const res = await admin.post('/api/v1/invitations').send({ email: TEST_DEVELOPER.email }).expect(409);
+    expect(res.body.detail).toMatch(/already has a Gammaline account/);
+  });
+
+  it('refuses a withdrawn invitation, a replaced one and an expired one', async () => {
+    const withdrawnTo = 'lena.faulk@kestrel-ridge.example';
+    const w = await admin.post('/api/v1/invitations').send({ email: withdrawnTo }).expect(201);
+    const withdrawnToken = await tokenFromLatestMail(withdrawnTo, '/invitation');
+    const gone = await admin.delete(`/api/v1/invitations/${w.body.id}`).expect(200);
+    expect(gone.body.state).toBe('withdrawn');
+    await request(ctx.app).post('/api/v1/invitations/accept').send({ token: withdrawnToken, displayName: 'Lena', password: 'a long enough phrase' }).expect(422);
+
+    const replacedTo = 'arlo.pike@kestrel-ridge.example';
+    await admin.post('/api/v1/invitations').send({ email: replacedTo }).expect(201);
+    const firstToken = await tokenFromLatestMail(replacedTo, '/invitation');
+    await admin.post('/api/v1/invitations').send({ email: replacedTo, role: 'admin' }).expect(201);
+    await request(ctx.app).post('/api/v1/invitations/accept').send({ token: firstToken, displayName: 'Arlo', password: 'a long enough phrase' }).expect(422);
+    const secondToken = await tokenFromLatestMail(replacedTo, '/invitation');
+
+    clock.advance(8 * 24 * 60 * 60 * 1000);
+    try {
+      await request(ctx.app).post('/api/v1/invitations/accept').send({ token: secondToken, displayName: 'Arlo', password: 'a long enough phrase' }).expect(422);
+    } finally {
+      clock.set(new Date());
+    }
+    const list = await admin.get('/api/v1/invitations').expect(200);
+    expect(list.body.invitations.filter((i: { email: string }) => i.email === replacedTo).map((i: { state: string }) => i.state)).toEqual(['pending', 'withdrawn']);
+  });
+
+  it('refuses a short password with a 422 naming the field (a range rule), and a junk token with 422', async () => {
+    const short = await request(ctx.app).post('/api/v1/invitations/accept').send({ token: 'x'.repeat(43), displayName: 'A', password: 'short' }).expect(422);
+    expect(short.body.errors).toContainEqual({ field: 'password', message: expect.stringMatching(/at least 12 characters/) });
+    await request(ctx.app).post('/api/v1/invitations/accept').send({ token: 'junk', displayName: 'A', password: 'long enough password' }).expect(422);
+  });
+
+  it('gives the invited role and records the join and the invitation in the audit trail', async () => {
+    const to = 'mira.castell@kestrel-ridge.example';
+    await admin.post('/api/v1/invitations').send({ email: to, role: 'admin' }).expect(201);
+    const token = await tokenFromLatestMail(to, '/invitation');
+    const joined = await request(ctx.app).post('/api/v1/invitations/accept').send({ token, displayName: 'Mira Castell', password: 'tower climb checklist' }).expect(201);
+    expect(joined.body.role).toBe('admin');
+    const audit = await admin.get('/api/v1/audit').expect(200);
+    const actions = audit.body.events.map((e: { action: string }) => e.action);
+    expect(actions).toEqual(expect.arrayContaining(['invitation.sent', 'invitation.withdrawn', 'member.joined']));
+  });
+});
+
+describe('the password-reset flow', () => {
+  it('mails a link that sets a new password once and ends the member\'s open sessions', async () => {
+    const open = await ctx.developerAgent();
+    const res = await request(ctx.app).post('/api/v1/password-reset').send({ email: TEST_DEVELOPER.email }).expect(202);
+    const [mail] = await mailsTo(TEST_DEVELOPER.email);
+    expect(mail!.subject).toBe('Choose a new Gammaline password');
+    const token = await tokenFromLatestMail(TEST_DEVELOPER.email, '/password-reset');
+
+    await request(ctx.app).post('/api/v1/password-reset/confirm').send({ token, password: 'brand new passphrase here' }).expect(204);
+    await open.get('/api/v1/session').expect(401);
+    await request(ctx.app).post('/api/v1/session').send({ email: TEST_DEVELOPER.email, password: TEST_DEVELOPER.password }).expect(401);
+    await request(ctx.app).post('/api/v1/session').send({ email: TEST_DEVELOPER.email, password: 'brand new passphrase here' }).expect(200);
+
+    const reused = await request(ctx.app).post('/api/v1/password-reset/confirm').send({ token, password: 'yet another passphrase' }).expect(422);
+    expect(reused.body.detail).toMatch(/POST \/api\/v1\/password-reset/);
+    // Keys are not sessions: a password change leaves them working.
+    await request(ctx.app).get('/api/v1/usage').set(ctx.auth).expect(200);
+    expect(res.body.message).toMatch(/If the address belongs to an active member/);
+  });
+
+  it('answers an unknown address exactly like a known one and sends nothing', async () => {
+    const known = await request(ctx.app).post('/api/v1/password-reset').send({ email: ctx.seed.adminEmail }).expect(202);
+    const unknown = await request(ctx.app).post('/api/v1/password-reset').send({ email: 'ghost@kestrel-ridge.example' }).expect(202);
+    expect(unknown.body).toEqual(known.body);
+    expect(await mailsTo('ghost@kestrel-ridge.example')).toEqual([]);
+  });
+
+  it('lets only the newest link work', async () => {
+    await request(ctx.app).post('/api/v1/password-reset').send({ email: 'oskar.brandt@kestrel-ridge.example' }).expect(202);
+    const first = await tokenFromLatestMail('oskar.brandt@kestrel-ridge.example', '/password-reset');
+    await request(ctx.app).post('/api/v1/password-reset').send({ email: 'oskar.brandt@kestrel-ridge.example' }).expect(202);
+    const second = await tokenFromLatestMail('oskar.brandt@kestrel-ridge.example', '/password-reset');
+    await request(ctx.app).post('/api/v1/password-reset/confirm').send({ token: first, password: 'first link passphrase' }).expect(422);
+    await request(ctx.app).post('/api/v1/password-reset/confirm').send({ token: second, password: 'second link passphrase' }).expect(204);
+  });
+
+  it(`sends at most ${RESET_MAILS_PER_ACCOUNT} reset mails per account in 15 minutes, answering the same way`, async () => {
+    const email = 'mira.castell@kestrel-ridge.example';
+    for (let i = 0; i < RESET_MAILS_PER_ACCOUNT + 2; i++) await request(ctx.app).post('/api/v1/password-reset').send({ email }).expect(202);
+    const resets = (await mailsTo(email)).filter((m) => m.subject === 'Choose a new Gammaline password');
+    expect(resets).toHaveLength(RESET_MAILS_PER_ACCOUNT);
+  });
+
+  it('refuses an expired link', async () => {
+    await request(ctx.app).post('/api/v1/password-reset').send({ email: ctx.seed.adminEmail }).expect(202);
+    const token = await tokenFromLatestMail(ctx.seed.adminEmail, '/password-reset');
+    clock.advance(61 * 60 * 1000);
+    try {
+      await request(ctx.app).post('/api/v1/password-reset/confirm').send({ token, password: 'too late for this one' }).expect(422);
+    } finally {
+      clock.set(new Date());
+    }
+  });
+});
+
+describe('captured mail', () => {
+  it('is newest first and filterable by recipient', async () => {
+    const all = await admin.get('/api/v1/mail').expect(200);
+    const times = all.body.messages.map((m: { receivedAt: string }) => m.receivedAt);
+    expect([...times].sort().reverse()).toEqual(times);
+    await admin.get('/api/v1/mail/00000000-0000-4000-8000-000000000000').expect(404);
+  });
+
+  it('is not served in production (404), even to an admin', async () => {
+    const prod = await createTestApp({ mode: 'production', trustProxy: 1 });
+    try {
+      const signIn = await request(prod.app)
+        .post('/api/v1/session')
+        .set('X-Forwarded-Proto', 'https')
+        .send({ email: prod.seed.adminEmail, password: prod.config.demoAdmin.password })
+        .expect(200);
+      const cookie = signIn.headers['set-cookie'] as unknown as string[];
+      await request(prod.app).get('/api/v1/mail').set('X-Forwarded-Proto', 'https').set('Cookie', cookie).expect(404);
+      await request(prod.app).get('/api/v1/keys').set('X-Forwarded-Proto', 'https').set('Cookie', cookie).expect(200);
+    } finally {
+      await prod.close();
+    }
+  });
+});
