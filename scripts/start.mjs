@@ -1,6 +1,6 @@
 // `npm start`: installs what is missing, starts PostgreSQL on loopback (unless DATABASE_URL is set),
 // builds the console and serves API + console + docs from one process. Ctrl-C stops everything it started.
-import { existsSync } from 'node:fs';
+import { existsSync, rmSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { ensureDebianPackages, ensureNodeModules } from './lib/bootstrap.mjs';
@@ -19,6 +19,8 @@ try {
     cluster = await startCluster({ dataDir: path.join(root, '.data', 'pg') });
     ensureDatabase(cluster.port, 'gammaline');
     env.DATABASE_URL = `postgres://postgres@127.0.0.1:${cluster.port}/gammaline`;
+    // Operator tools (npm run keys) find the running database here when DATABASE_URL is unset.
+    writeFileSync(path.join(root, '.data', 'database-url'), `${env.DATABASE_URL}\n`);
   } else {
     say('using the PostgreSQL at DATABASE_URL');
   }
@@ -32,6 +34,7 @@ try {
     process.on(signal, () => server.child.kill('SIGTERM'));
   }
   const code = await server.exited;
+  if (cluster) rmSync(path.join(root, '.data', 'database-url'), { force: true });
   cluster?.stop();
   process.exit(code);
 } catch (err) {

@@ -55,7 +55,14 @@ export function createApp(deps: AppDependencies): Express {
       redact: ['req.headers.authorization', 'req.headers.cookie', 'res.headers["set-cookie"]'],
     }),
   );
-  app.use(helmet());
+  // Local mode is plain HTTP on loopback (or a LAN address): forcing HTTPS there would break the console.
+  const local = deps.config.mode === 'local';
+  app.use(
+    helmet({
+      strictTransportSecurity: !local,
+      contentSecurityPolicy: { directives: { upgradeInsecureRequests: local ? null : [] } },
+    }),
+  );
   app.use(express.json({ limit: deps.config.bodyLimit, type: ['application/json', 'application/*+json'] }));
 
   app.use(healthRouter(ctx));

@@ -1,0 +1,252 @@
+// `npm run bench` (via scripts/bench.mjs, which provides a throwaway PostgreSQL in DATABASE_URL):
+// measures the targets of the speed issue side by side on this machine and writes bench/results.json.
+// Every load is bounded in requests and seconds and goes to 127.0.0.1 only.
+import { spawn, type ChildProcess } from 'node:child_process';
+import { writeFileSync } from 'node:fs';
+import http from 'node:http';
+import os from 'node:os';
+import path from 'node:path';
+import { Readable } from 'node:stream';
+import { fileURLToPath } from 'node:url';
+import autocannon from 'autocannon';
+import { create as createMath, all } from 'mathjs';
+import { createKey } from '../server/api/v1/keys/keys.service.ts';
+import { CLI_ACTOR } from '../server/api/v1/audit/audit.repository.ts';
+import { openDatabase } from '../server/db/client.ts';
+import { migrateDatabase } from '../server/db/migrate.ts';
+import { seedDemo } from '../server/db/seed.ts';
+import { lineFromLossSpec, lineInputImpedance } from '../shared/rf/line.ts';
+import { analyseSweep, parseTouchstone } from '../shared/sweep/index.ts';
+
+const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
+const RUNS = Number(process.env.BENCH_RUNS ?? 3);
+const SECONDS = Number(process.env.BENCH_SECONDS ?? 5);
+const CONNECTIONS = 16;
+
+interface Target {
+  id: string;
+  what: string;
+  measured: Record<string, number | string | null>;
+  goal: string;
+  ratio: number | null;
+  met: boolean | null;
+}
+
+const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)] ?? NaN;
+
+async function prepare(url: string): Promise<string> {
+  const database = openDatabase(url, { max: 2 });
+  try {
+    await migrateDatabase(database.pool);
+    const seeded = await seedDemo(database.db, { email: 'bench@kestrel-ridge.example', password: 'bench-password-1' });
+    const created = await createKey(
+      database.db,
+      { organisationId: seeded.organisationId, ownerId: seeded.adminId, name: 'bench', note: '', dailyQuota: 2_000_000_000, burstPerMinute: 2_000_000_000, actor: CLI_ACTOR },
+      new Date(),
+    );
+    return created.secret;
+  } finally {
+    await database.close();
+  }
+}
+
+async function startServer(): Promise<{ child: ChildProcess; base: string }> {
+  const child = spawn(process.execPath, ['--import', 'tsx', path.join(root, 'bench', 'server.ts')], { env: process.env, stdio: ['ignore', 'pipe', 'inherit'] });
+  const port = await new Promise<number>((resolve, reject) => {
+    let buffered = '';
+    child.stdout!.on('data', (chunk: Buffer) => {
+      buffered += chunk.toString();
+      const match = /\{"port":(\d+)\}/.exec(buffered);
+      if (match) resolve(Number(match[1]));
+    });
+    child.on('exit', (code) => reject(new Error(`bench server exited with ${code}`)));
+  });
+  return { child, base: `http://127.0.0.1:${port}` };
+}
+
+async function load(options: autocannon.Options): Promise<autocannon.Result> {
+  return autocannon({ connections: CONNECTIONS, duration: SECONDS, ...options });
+}
+
+async function throughput(url: string, body: string, headers: Record<string, string>): Promise<number[]> {
+  const rates: number[] = [];
+  for (let i = 0; i < RUNS; i++) {
+    const r = await load({ url, method: 'POST', body, headers: { 'content-type': 'application/json', ...headers } });
+    if (r.non2xx > 0) throw new Error(`${url}: ${r.non2xx} non-2xx answers during the load`);
+    rates.push(r.requests.average);
+  }
+  return rates;
+}
+
+async function p1(base: string, key: string): Promise<Target> {
+  const body = JSON.stringify({ forwardPowerW: 100, reflectedPowerW: 4 });
+  const bare = median(await throughput(`${base}/bench/bare`, body, {}));
+  const calc = median(await throughput(`${base}/api/v1/mismatch`, body, { authorization: `Bearer ${key}` }));
+  const half = Math.max(1, Math.round(calc / 2));
+  const p99s: number[] = [];
+  for (let i = 0; i < RUNS; i++) {
+    const r = await load({ url: `${base}/api/v1/mismatch`, method: 'POST', body, headers: { 'content-type': 'application/json', authorization: `Bearer ${key}` }, overallRate: half });
+    p99s.push(r.latency.p99);
+  }
+  const ratio = calc / bare;
+  const p99 = median(p99s);
+  return {
+    id: 'P1',
+    what: 'authenticated, quota-counted /mismatch vs bare JSON route (req/s)',
+    measured: { bareRps: bare, calcRps: calc, p99MsAtHalfLoad: p99, halfLoadRps: half },
+    goal: 'ratio ≥ 0.70 and p99 ≤ 10 ms at half load',
+    ratio,
+    met: ratio >= 0.7 && p99 <= 10,
+  };
+}
+
+function post(url: string, body: string | Readable, headers: Record<string, string>): Promise<{ status: number; ms: number; bytes: number }> {
+  const started = performance.now();
+  return new Promise((resolve, reject) => {
+    const req = http.request(url, { method: 'POST', headers }, (res) => {
+      let bytes = 0;
+      res.on('data', (c: Buffer) => (bytes += c.length));
+      res.on('end', () => resolve({ status: res.statusCode ?? 0, ms: performance.now() - started, bytes }));
+      res.on('error', reject);
+    });
+    req.on('error', reject);
+    if (typeof body === 'string') req.end(body);
+    else body.pipe(req);
+  });
+}
+
+async function p2(base: string, key: string): Promise<Target> {
+  const items = Array.from({ length: 10_000 }, (_, i) => ({
+    op: 'line',
+    input: { frequencyHz: 7e6 + i * 100, line: { impedanceOhm: 50, velocityFactor: 0.66, lossDbPer100m: 2.5, lengthM: 30 }, loadOhm: { re: 40 + (i % 50), im: -20 + (i % 40) } },
+  }));
+  const body = JSON.stringify({ items });
+  const echo: number[] = [];
+  const batch: number[] = [];
+  for (let i = 0; i < RUNS; i++) {
+    echo.push((await post(`${base}/bench/echo`, body, { 'content-type': 'application/json' })).ms);
+    const r = await post(`${base}/api/v1/batch`, body, { 'content-type': 'application/json', authorization: `Bearer ${key}` });
+    if (r.status !== 200) return { id: 'P2', what: 'batch of 10,000 line items vs parse-and-echo', measured: { batchStatus: r.status }, goal: 'ratio ≥ 0.50', ratio: null, met: null };
+    batch.push(r.ms);
+  }
+  const ratio = median(echo) / median(batch);
+  return { id: 'P2', what: 'batch of 10,000 line items vs parse-and-echo of the same payload (1/time)', measured: { echoMs: median(echo), batchMs: median(batch) }, goal: 'ratio ≥ 0.50', ratio, met: ratio >= 0.5 };
+}
+
+function p3(): Target {
+  const n = 2_000_000;
+  const line = lineFromLossSpec({ impedanceOhm: { re: 50, im: 0 }, velocityFactor: 0.66, lossDbPer100m: 3, lengthM: 27.5 }, 14.2e6);
+  const loads = Array.from({ length: 1024 }, (_, i) => ({ re: 10 + (i % 97), im: -60 + (i % 121) }));
+  let sink = 0;
+  const t0 = performance.now();
+  for (let i = 0; i < n; i++) sink += lineInputImpedance(line, loads[i & 1023]!).re;
+  const ownS = (performance.now() - t0) / 1000;
+
+  const math = createMath(all!, {});
+  const z0 = math.complex(line.characteristicOhm.re, line.characteristicOhm.im);
+  const gl = math.complex(line.propagationPerM.re * line.lengthM, line.propagationPerM.im * line.lengthM);
+  const m = 200_000;
+  const t1 = performance.now();
+  for (let i = 0; i < m; i++) {
+    const l = loads[i & 1023]!;
+    const zl = math.complex(l.re, l.im);
+    const t = math.tanh(gl) as unknown as math.Complex;
+    const zin = math.multiply(z0, math.divide(math.add(zl, math.multiply(z0, t)), math.add(z0, math.multiply(zl, t)))) as math.Complex;
+    sink += zin.re;
+  }
+  const mathS = (performance.now() - t1) / 1000;
+  const ownRate = n / ownS;
+  const mathRate = m / mathS;
+  const ratio = ownRate / mathRate;
+  if (!Number.isFinite(sink)) throw new Error('P3 produced a non-finite sum');
+  return {
+    id: 'P3',
+    what: 'line input impedance in process: own code vs the same formula in mathjs (points/s, one core)',
+    measured: { ownPointsPerS: ownRate, mathjsPointsPerS: mathRate },
+    goal: 'ratio ≥ 10 and ≥ 5,000,000 points/s',
+    ratio,
+    met: ratio >= 10 && ownRate >= 5e6,
+  };
+}
+
+function touchstoneText(points: number): string {
+  const lines = ['! bench sweep: invented series RLC antenna', '# Hz S RI R 50'];
+  for (let i = 0; i < points; i++) {
+    const f = 6.9e6 + i * 50;
+    const x = 2 * Math.PI * f * 12e-6 - 1 / (2 * Math.PI * f * 41.6e-12);
+    const zr = 58;
+    const d = (zr + 50) ** 2 + x * x;
+    lines.push(`${f} ${((zr * zr - 2500 + x * x) / d).toPrecision(12)} ${((2 * 50 * x) / d).toPrecision(12)}`);
+  }
+  return lines.join('\n');
+}
+
+function p4(): Target {
+  const text = touchstoneText(10_000);
+  const parseMs: number[] = [];
+  const bothMs: number[] = [];
+  for (let i = 0; i < 7; i++) {
+    const t0 = performance.now();
+    parseTouchstone(text);
+    parseMs.push(performance.now() - t0);
+    const t1 = performance.now();
+    const sweep = parseTouchstone(text);
+    analyseSweep(sweep.points, { referenceOhm: sweep.referenceOhm, thresholdSwr: 2 });
+    bothMs.push(performance.now() - t1);
+  }
+  const ratio = median(bothMs) / median(parseMs);
+  return { id: 'P4', what: '10,000-point Touchstone: parse + analyse vs parse alone (time)', measured: { parseMs: median(parseMs), parseAndAnalyseMs: median(bothMs) }, goal: 'ratio ≤ 2', ratio, met: ratio <= 2 };
+}
+
+async function p5(base: string, key: string): Promise<Target> {
+  const total = Number(process.env.BENCH_NDJSON_ITEMS ?? 1_000_000);
+  let i = 0;
+  const line = Buffer.from(`${JSON.stringify({ op: 'mismatch', input: { swr: 1.5 } })}\n`);
+  const body = new Readable({
+    read() {
+      // Chunks of 1,000 lines keep the client cheap; the server sees a steady stream.
+      if (i >= total) return this.push(null);
+      const n = Math.min(1000, total - i);
+      i += n;
+      this.push(Buffer.concat(Array.from({ length: n }, () => line)));
+    },
+  });
+  const before = (await (await fetch(`${base}/bench/memory`)).json()) as { rssBytes: number };
+  const r = await post(`${base}/api/v1/batch`, body, { 'content-type': 'application/x-ndjson', authorization: `Bearer ${key}` });
+  const after = (await (await fetch(`${base}/bench/memory`)).json()) as { rssBytes: number; maxRssBytes: number };
+  const ok = r.status === 200;
+  return {
+    id: 'P5',
+    what: `NDJSON stream of ${total.toLocaleString('en')} mismatch items`,
+    measured: { status: r.status, seconds: r.ms / 1000, itemsPerS: ok ? total / (r.ms / 1000) : null, rssBeforeMb: before.rssBytes / 2 ** 20, peakRssMb: after.maxRssBytes / 2 ** 20, responseMb: r.bytes / 2 ** 20 },
+    goal: 'completes with flat memory (peak RSS reported)',
+    ratio: null,
+    met: ok ? after.maxRssBytes - before.rssBytes < 256 * 2 ** 20 : null,
+  };
+}
+
+const url = process.env.DATABASE_URL;
+if (!url) throw new Error('Run the benchmark with `npm run bench` (it provides DATABASE_URL).');
+const key = await prepare(url);
+const targets: Target[] = [p3(), p4()];
+const { child, base } = await startServer();
+try {
+  targets.unshift(await p1(base, key), await p2(base, key));
+  targets.push(await p5(base, key));
+} finally {
+  child.kill('SIGTERM');
+}
+targets.sort((a, b) => a.id.localeCompare(b.id));
+
+const machine = { cpus: os.cpus().length, cpuModel: os.cpus()[0]?.model ?? 'unknown', memoryGb: Math.round(os.totalmem() / 2 ** 30), node: process.version, platform: `${os.type()} ${os.release()}` };
+const results = { machine, date: new Date().toISOString(), runs: RUNS, secondsPerRun: SECONDS, connections: CONNECTIONS, targets };
+writeFileSync(path.join(root, 'bench', 'results.json'), `${JSON.stringify(results, null, 2)}\n`);
+
+const fmt = (v: unknown) => (typeof v === 'number' ? (Math.abs(v) >= 100 ? Math.round(v).toLocaleString('en') : v.toPrecision(3)) : String(v));
+console.log(`\nGammaline benchmark · ${machine.cpus} × ${machine.cpuModel} · ${machine.memoryGb} GiB · Node ${machine.node} · medians of ${RUNS} runs\n`);
+console.log('| target | what | measured | goal | ratio | met |');
+console.log('|---|---|---|---|---|---|');
+for (const t of targets) {
+  const measured = Object.entries(t.measured).map(([k, v]) => `${k} ${fmt(v)}`).join(', ');
+  console.log(`| ${t.id} | ${t.what} | ${measured} | ${t.goal} | ${t.ratio === null ? '—' : fmt(t.ratio)} | ${t.met === null ? 'n/a' : t.met ? 'yes' : 'no'} |`);
+}
