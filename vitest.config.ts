@@ -30,6 +30,18 @@ export default defineConfig({
           environment: 'happy-dom',
         },
       },
+      {
+        test: {
+          name: 'e2e',
+          include: ['tests/e2e/**/*.test.ts'],
+          environment: 'node',
+          // One server and one browser at a time: two cores, and the scenarios share the demo admin.
+          globalSetup: ['tests/e2e/global-setup.ts'],
+          fileParallelism: false,
+          testTimeout: 60_000,
+          hookTimeout: 150_000,
+        },
+      },
     ],
   },
 });

@@ -26,7 +26,8 @@ class UsageError extends Error {}
 
 function databaseUrl(): string {
   if (process.env.DATABASE_URL) return process.env.DATABASE_URL;
-  const recorded = path.join(root, '.data', 'database-url');
+  // DATABASE_URL_FILE lets tests point away from a developer's running `npm start`.
+  const recorded = process.env.DATABASE_URL_FILE ?? path.join(root, '.data', 'database-url');
   if (existsSync(recorded)) return readFileSync(recorded, 'utf8').trim();
   throw new UsageError('Set DATABASE_URL to the PostgreSQL database of the running Gammaline (npm start prints it), e.g.\n  DATABASE_URL=postgres://postgres@127.0.0.1:54321/gammaline npm run keys -- list');
 }

@@ -26,6 +26,8 @@ export interface AppDependencies {
 }
 
 const REQUEST_ID_PATTERN = /^[A-Za-z0-9._-]{1,64}$/;
+/** Routes that parse their own body (see server/api/v1/batch). */
+const OWN_BODY_PATH = /^\/api\/v1\/batch\/?$/i;
 
 /** Builds the whole HTTP application from its dependencies; listening is the caller's business. */
 export function createApp(deps: AppDependencies): Express {
@@ -63,7 +65,9 @@ export function createApp(deps: AppDependencies): Express {
       contentSecurityPolicy: { directives: { upgradeInsecureRequests: local ? null : [] } },
     }),
   );
-  app.use(express.json({ limit: deps.config.bodyLimit, type: ['application/json', 'application/*+json'] }));
+  const jsonBody = express.json({ limit: deps.config.bodyLimit, type: ['application/json', 'application/*+json'] });
+  // POST /api/v1/batch reads its own body: a larger JSON limit for that route alone, and NDJSON streamed unbuffered.
+  app.use((req, res, next) => (OWN_BODY_PATH.test(req.path) ? next() : jsonBody(req, res, next)));
 
   app.use(healthRouter(ctx));
   app.get('/api/v1/openapi.json', (_req, res) => {

@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm';
-import { boolean, date, index, integer, json, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid, varchar } from 'drizzle-orm/pg-core';
+import { boolean, customType, date, doublePrecision, index, integer, json, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid, varchar } from 'drizzle-orm/pg-core';
 
 /** What a member may do: admins manage members, invitations, every key and quotas; developers their own keys. */
 export const memberRole = pgEnum('member_role', ['admin', 'developer']);
@@ -251,4 +251,116 @@ export const userSessions = pgTable(
     expire: timestamp('expire', { precision: 6 }).notNull(),
   },
   (t) => [index('IDX_user_sessions_expire').on(t.expire)],
+);
+
+/** Raw bytes; used for packed float64 sweep points (exact doubles, a third of the size of JSON). */
+const bytea = customType<{ data: Buffer; driverData: Buffer }>({ dataType: () => 'bytea' });
+
+/** Cables an organisation defines for itself, usable everywhere a catalog cable id is. */
+export const accountCables = pgTable(
+  'account_cables',
+  {
+    id: uuid('id').primaryKey().defaultRandom(),
+    /** Owning organisation; only its members see and use the cable. */
+    organisationId: uuid('organisation_id')
+      .notNull()
+      .references(() => organisations.id, { onDelete: 'cascade' }),
+    /** The id requests use (`cableId`); always starts with `account-`, so it never collides with a catalog id. Unique per organisation. */
+    cableId: text('cable_id').notNull(),
+    /** Name people know the cable by, e.g. the reel label. */
+    designation: text('designation').notNull(),
+    /** Nominal characteristic impedance in ohms. */
+    impedanceOhm: doublePrecision('impedance_ohm').notNull(),
+    /** Velocity factor, 0 < VF ≤ 1. */
+    velocityFactor: doublePrecision('velocity_factor').notNull(),
+    /** Matched loss against frequency, in the catalog's model: `{ kind: 'k1k2', k1, k2 }` or `{ kind: 'table', points }`. */
+    attenuation: jsonb('attenuation').notNull(),
+    /** RMS voltage rating in volts; null when unknown (no voltage caution is given then). */
+    maxVoltageRmsV: doublePrecision('max_voltage_rms_v'),
+    /** Where the figures come from (datasheet, own measurement), as the admin stated it. */
+    source: text('source').notNull(),
+    /** Free text shown with the cable. */
+    notes: text('notes').notNull().default(''),
+    /** Member who defined the cable. */
+    createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
+    /** When the cable was defined. */
+    createdAt: timestamp('created_at', { withTimezone: true }).notNull().defaultNow(),
+    /** When the cable was last changed. */
+    updatedAt: timestamp('updated_at', { withTimezone: true }).notNull().defaultNow(),
+  },
+  (t) => [uniqueIndex('account_cables_organisation_cable_unique').on(t.organisationId, t.cableId)],
+);
+
+/** A station's feed line, described once and referred to by id: ordered sections from the transmitter end. */
+export const feedlines = pgTable(
+  'feedlines',
+  {
+    id: uuid('id').primaryKey().defaultRandom(),
+    /** Owning organisation; every query filters on it. */
+    organisationId: uuid('organisation_id')
+      .notNull()
+      .references(() => organisations.id, { onDelete: 'cascade' }),
+    /** Name chosen by the member, e.g. "Hut to mast, 40 m dipole". */
+    name: text('name').notNull(),
+    /** Free text. */
+    notes: text('notes').notNull().default(''),
+    /** Sections listed from the transmitter (source) end to the antenna, as validated by FeedlineSectionSchema. */
+    sections: jsonb('sections').notNull(),
+    /** Member who saved the feed line. */
+    createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
+    /** When the feed line was saved. */
+    createdAt: timestamp('created_at', { withTimezone: true }).notNull().defaultNow(),
+    /** When the feed line was last changed. */
+    updatedAt: timestamp('updated_at', { withTimezone: true }).notNull().defaultNow(),
+  },
+  (t) => [index('feedlines_organisation_idx').on(t.organisationId, t.createdAt)],
+);
+
+/** An uploaded one-port sweep with the parameters it was analysed with. */
+export const sweeps = pgTable(
+  'sweeps',
+  {
+    id: uuid('id').primaryKey().defaultRandom(),
+    /** Owning organisation; every query filters on it. */
+    organisationId: uuid('organisation_id')
+      .notNull()
+      .references(() => organisations.id, { onDelete: 'cascade' }),
+    /** Member who uploaded the sweep. */
+    createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
+    /** Name shown in lists. */
+    name: text('name').notNull(),
+    /** How the points arrived: `touchstone`, `csv` or `json`. */
+    sourceFormat: text('source_format').notNull(),
+    /** Name of the uploaded file; null for JSON points. */
+    fileName: text('file_name'),
+    /** Real reference resistance (ohms) SWR and return loss are read against. */
+    referenceOhm: doublePrecision('reference_ohm').notNull(),
+    /** SWR under which a band counts as usable. */
+    thresholdSwr: doublePrecision('threshold_swr').notNull(),
+    /** `sourceToLoad` or `loadToSource` when the sweep was moved through a line; null otherwise. */
+    direction: text('direction'),
+    /** The sections the sweep was moved through, from the transmitter end, as they were at upload (the moved points are stored, so later changes to a feed line or cable do not alter this sweep); null when not moved. */
+    line: jsonb('line'),
+    /** The saved feed line named at upload, if any; null after that feed line is deleted (the snapshot in `line` stays). */
+    feedlineId: uuid('feedline_id').references(() => feedlines.id, { onDelete: 'set null' }),
+    /** Acceptance mask as given (`{ maxSwr }` or `{ minReturnLossDb }`, optional range); null when none. */
+    mask: jsonb('mask'),
+    /** Number of frequency points. */
+    pointCount: integer('point_count').notNull(),
+    /** First frequency, Hz. */
+    startHz: doublePrecision('start_hz').notNull(),
+    /** Last frequency, Hz. */
+    stopHz: doublePrecision('stop_hz').notNull(),
+    /** The points as measured: little-endian float64 triples (frequency Hz, R ohm, X ohm), NaN R/X for an open circuit. */
+    measuredPoints: bytea('measured_points').notNull(),
+    /** The points after moving through `line`, same packing; null when the sweep was not moved (the measured points are analysed). */
+    movedPoints: bytea('moved_points'),
+    /** The analysis summary (minimum SWR, bands, resonances), kept so lists need no points. */
+    summary: jsonb('summary').notNull(),
+    /** Acceptance verdict when a mask was given; null otherwise. */
+    verdict: jsonb('verdict'),
+    /** When the sweep was uploaded. */
+    createdAt: timestamp('created_at', { withTimezone: true }).notNull().defaultNow(),
+  },
+  (t) => [index('sweeps_organisation_created_idx').on(t.organisationId, t.createdAt)],
 );

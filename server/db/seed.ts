@@ -1,14 +1,105 @@
 import { hash } from '@node-rs/argon2';
 import { sql } from 'drizzle-orm';
+import type { FeedlineSection } from '../../shared/schemas/feedlines.ts';
+import type { SweepMask } from '../../shared/sweep/analyse.ts';
+import { moveSweepThroughLine } from '../../shared/sweep/move.ts';
+import type { SweepPointInput } from '../../shared/sweep/points.ts';
+import { catalogOnly } from '../api/v1/calc/operations.ts';
+import { sectionModels } from '../api/v1/feedlines/feedlines.service.ts';
+import { findFeedlineByName, insertFeedline } from '../api/v1/feedlines/feedlines.repository.ts';
+import { packPoints } from '../api/v1/sweeps/sweeps.points.ts';
+import { insertSweep, sweepIdByName } from '../api/v1/sweeps/sweeps.repository.ts';
+import { prepareSweep } from '../api/v1/sweeps/sweeps.service.ts';
 import type { Db } from './client.ts';
 import { organisations, users } from './schema.ts';
 
 /** The invented demo scenario: a small club station on a windy ridge. */
 export const DEMO_ORGANISATION = { name: 'Kestrel Ridge Radio Club', slug: 'kestrel-ridge' } as const;
 
+/** The club's feed line from the radio hut to its 40 m dipole (invented). */
+export const DEMO_FEEDLINE = {
+  name: 'Radio hut to ridge mast (40 m dipole)',
+  notes: 'Demo data: an invented station. The buried run ends in an N barrel at the mast foot; a lighter cable goes up the mast.',
+  sections: [
+    { cableId: 'rg-213', lengthM: 26, label: 'Buried run, hut to mast foot' },
+    { insertionLossDb: 0.12, label: 'N barrel at the mast foot' },
+    { cableId: 'rg-8x', lengthM: 9, label: 'Up the mast to the feed point' },
+  ] satisfies FeedlineSection[],
+};
+
+const DEMO_MASK: SweepMask = { maxSwr: 1.5, startHz: 7_000_000, stopHz: 7_200_000 };
+
 /**
- * Creates the demo organisation and its admin when missing; leaves existing data alone, so a second
- * `npm start` keeps whatever the user changed. Never called in production mode.
+ * A centre-fed dipole near resonance as a series RLC circuit: Z = R + j·R·Q·(f/f0 − f0/f).
+ * Invented values; the shape is the textbook one for a single resonance.
+ */
+function seriesRlcSweep(resistanceOhm: number, resonanceHz: number, q: number): SweepPointInput[] {
+  const points: SweepPointInput[] = [];
+  for (let i = 0; i <= 120; i++) {
+    const f = 6_800_000 + i * 5_000;
+    points.push({ frequencyHz: f, loadOhm: { re: resistanceOhm, im: resistanceOhm * q * (f / resonanceHz - resonanceHz / f) } });
+  }
+  return points;
+}
+
+/**
+ * The demo station's saved feed line and two sweeps of its dipole: one taken at the hut after a retune
+ * and moved up the feed line (inside the mask), one taken at the feed point before the retune (outside
+ * it). Each is added only when missing, by name.
+ */
+async function seedDemoStation(db: Db, organisationId: string, adminId: string): Promise<void> {
+  const feedline =
+    (await findFeedlineByName(db, { organisationId, name: DEMO_FEEDLINE.name })) ??
+    (await insertFeedline(db, { organisationId, createdBy: adminId, ...DEMO_FEEDLINE }));
+
+  const demos = [
+    {
+      name: 'Ridge dipole from the hut, after retune',
+      antenna: seriesRlcSweep(52, 7_095_000, 9),
+      measuredAtHut: true,
+    },
+    {
+      name: 'Ridge dipole at the feed point, before retune',
+      antenna: seriesRlcSweep(38, 6_930_000, 11),
+      measuredAtHut: false,
+    },
+  ];
+  for (const demo of demos) {
+    if (await sweepIdByName(db, { organisationId, name: demo.name })) continue;
+    const referenceOhm = 50;
+    // What an analyzer at the hut would have shown: the antenna carried down the feed line.
+    const measured = demo.measuredAtHut
+      ? moveSweepThroughLine({ referenceOhm, points: demo.antenna }, (f) => sectionModels(feedline.sections, f, catalogOnly, 'line'), 'loadToSource').points
+      : demo.antenna;
+    const move = demo.measuredAtHut ? { sections: feedline.sections, direction: 'sourceToLoad' as const, field: 'feedlineId' as const, single: false } : undefined;
+    const { moved, analysis, thresholdSwr } = prepareSweep(measured, { referenceOhm, mask: DEMO_MASK, move, env: catalogOnly });
+    await insertSweep(db, {
+      organisationId,
+      createdBy: adminId,
+      name: demo.name,
+      sourceFormat: 'json',
+      fileName: null,
+      referenceOhm,
+      thresholdSwr,
+      direction: move?.direction ?? null,
+      line: move ? feedline.sections : null,
+      feedlineId: move ? feedline.id : null,
+      mask: DEMO_MASK,
+      pointCount: analysis.summary.pointCount,
+      startHz: analysis.summary.startHz,
+      stopHz: analysis.summary.stopHz,
+      measuredPoints: packPoints(measured),
+      movedPoints: moved ? packPoints(moved) : null,
+      summary: analysis.summary,
+      verdict: analysis.verdict ?? null,
+    });
+  }
+}
+
+/**
+ * Creates the demo organisation, its admin and the demo station's feed line and sweeps when missing;
+ * leaves existing data alone, so a second `npm start` keeps whatever the user changed. Never called in
+ * production mode.
  */
 export async function seedDemo(db: Db, admin: { email: string; password: string }): Promise<{ organisationId: string; adminId: string }> {
   return db.transaction(async (tx) => {
@@ -20,12 +111,16 @@ export async function seedDemo(db: Db, admin: { email: string; password: string 
     if (!org) throw new Error('demo organisation could not be created');
     const email = admin.email.toLowerCase();
     const existing = await tx.select({ id: users.id }).from(users).where(sql`lower(${users.email}) = ${email}`);
-    if (existing[0]) return { organisationId: org.id, adminId: existing[0].id };
-    const [created] = await tx
-      .insert(users)
-      .values({ organisationId: org.id, email, displayName: 'Demo Admin', role: 'admin', passwordHash: await hash(admin.password) })
-      .returning({ id: users.id });
-    if (!created) throw new Error('demo admin could not be created');
-    return { organisationId: org.id, adminId: created.id };
+    let adminId = existing[0]?.id;
+    if (!adminId) {
+      const [created] = await tx
+        .insert(users)
+        .values({ organisationId: org.id, email, displayName: 'Demo Admin', role: 'admin', passwordHash: await hash(admin.password) })
+        .returning({ id: users.id });
+      if (!created) throw new Error('demo admin could not be created');
+      adminId = created.id;
+    }
+    await seedDemoStation(tx as unknown as Db, org.id, adminId);
+    return { organisationId: org.id, adminId };
   });
 }

@@ -88,7 +88,9 @@ async function send(who: Who, c: Case) {
 }
 
 const OWN_TAGS = new Set(['Session', 'Keys', 'Usage', 'Members', 'Invitations', 'Organisation', 'Audit', 'Local mail']);
-type Operations = Record<string, Record<string, { tags?: string[] }>>;
+type Operations = Record<string, Record<string, { tags?: string[]; security?: Record<string, string[]>[] }>>;
+/** Routes documented as console-only (no apiKey scheme): admin writes such as account cables. */
+const consoleOnly = (op: { security?: Record<string, string[]>[] }) => op.security !== undefined && !op.security.some((s) => 'apiKey' in s);
 
 describe('the role matrix', () => {
   it('lists every accounts route of the OpenAPI document', () => {
@@ -116,14 +118,25 @@ describe('the calculation routes', () => {
   const calc = Object.entries(openApiDocument().paths as Operations).flatMap(([path, ops]) =>
     Object.entries(ops)
       .filter(([, op]) => path.startsWith('/api/v1/') && path !== '/api/v1/openapi.json' && !op.tags?.some((t) => OWN_TAGS.has(t)))
-      .map(([method]) => ({ method: method as 'get' | 'post', path, url: path.replace(/\{[^}]+\}/g, 'no-such-id') })),
+      .map(([method, op]) => ({ method: method as 'get' | 'post', path, url: path.replace(/\{[^}]+\}/g, 'no-such-id'), consoleOnly: consoleOnly(op) })),
   );
 
   it('exist in the OpenAPI document', () => {
     expect(calc.length).toBeGreaterThan(0);
   });
 
-  for (const r of calc) {
+  for (const r of calc.filter((c) => c.consoleOnly)) {
+    it(`${r.method.toUpperCase()} ${r.path} is for signed-in admins: 401 anonymous, 403 for keys and developers`, async () => {
+      expect((await request(ctx.app)[r.method](r.url).send({})).status).toBe(401);
+      expect((await request(ctx.app)[r.method](r.url).set(ctx.auth).send({})).status).toBe(403);
+      const dev = await ctx.developerAgent();
+      expect((await dev[r.method](r.url).send({})).status).toBe(403);
+      const admin = await ctx.adminAgent();
+      expect([401, 403]).not.toContain((await admin[r.method](r.url).send({})).status);
+    });
+  }
+
+  for (const r of calc.filter((c) => !c.consoleOnly)) {
     it(`${r.method.toUpperCase()} ${r.path} answers 401 without a key or session, and lets keys and sessions through`, async () => {
       const anonymous = await request(ctx.app)[r.method](r.url).send({});
       expect(anonymous.status).toBe(401);

@@ -77,7 +77,7 @@ describe('npm run keys', () => {
     const twice = await keys(['revoke', created.id]);
     expect(twice.code).toBe(1);
     expect(twice.stderr).toMatch(/No live key/);
-    const noDb = await keys(['list'], { DATABASE_URL: '' });
+    const noDb = await keys(['list'], { DATABASE_URL: '', DATABASE_URL_FILE: '/nonexistent/database-url' });
     expect(noDb.code).toBe(2);
     expect(noDb.stderr).toMatch(/Set DATABASE_URL/);
     const help = await keys([]);

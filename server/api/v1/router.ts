@@ -2,6 +2,10 @@ import { Router } from 'express';
 import type { AppContext } from '../../context.ts';
 import { calculationGuard, requireCaller } from '../../auth/caller.ts';
 import { calcRouter } from './calc/calc.routes.ts';
+import { batchRouter } from './batch/batch.routes.ts';
+import { cablesRouter } from './cables/cables.routes.ts';
+import { feedlinesRouter } from './feedlines/feedlines.routes.ts';
+import { sweepsRouter } from './sweeps/sweeps.routes.ts';
 // Imported in the order the OpenAPI document lists them (registration happens at import).
 import { sessionRouter } from './session/session.routes.ts';
 import { passwordResetRouter } from './password-reset/password-reset.routes.ts';
@@ -21,6 +25,10 @@ export function v1Router(ctx: AppContext): Router {
   const router = Router();
   // Every calculation route needs a key or a console session; metered ones also spend quota.
   router.use(calcRouter(ctx, { guard: (endpoint, { metered }) => (metered ? calculationGuard(ctx, endpoint) : [requireCaller(ctx)]) }));
+  router.use(batchRouter(ctx));
+  router.use(cablesRouter(ctx));
+  router.use(feedlinesRouter(ctx));
+  router.use(sweepsRouter(ctx));
   router.use(sessionRouter(ctx));
   router.use(passwordResetRouter(ctx));
   router.use(keysRouter(ctx));

@@ -65,8 +65,12 @@ describe('physical bounds hold', () => {
         const r = transformLine(line, zl, f, p);
         expect(r.power!.inputW).toBe(p);
         expect(r.power!.loadW + r.power!.lineDissipationW).toBeCloseTo(p, 9);
-        expect(r.power!.lineDissipationW).toBeGreaterThanOrEqual(-1e-12 * p);
-        expect(r.power!.loadW).toBeLessThanOrEqual(p * (1 + 1e-12));
+        // Rounding acts on the forward and reflected waves, not on their small difference: near total
+        // reflection the forward power p/(1 − |Γ|²) sets the scale of the round-off (numerical analysis, common practice).
+        const rho = r.atLoad.reflection.magnitude;
+        const forwardScale = p / Math.max(1e-300, 1 - rho * rho);
+        expect(r.power!.lineDissipationW).toBeGreaterThanOrEqual(-1e-12 * forwardScale);
+        expect(r.power!.loadW).toBeLessThanOrEqual(p + 1e-12 * forwardScale);
       }),
       { numRuns: 200 },
     );

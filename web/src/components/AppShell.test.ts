@@ -5,6 +5,7 @@ import { createMemoryHistory } from 'vue-router';
 import App from '../App.vue';
 import { createConsoleRouter } from '../router/index.ts';
 import { THEME_STORAGE_KEY } from '../stores/theme.ts';
+import { fakeApi, json, notSignedIn, sessionOf } from '../test/fakeApi.ts';
 
 async function mountAt(path: string) {
   const pinia = createPinia();
@@ -36,33 +37,52 @@ afterEach(() => {
 });
 
 describe('console shell', () => {
-  it('shows the product name, every planned page and the API reference link', async () => {
+  it('shows a visitor who is not signed in only the status page, sign-in and the API reference', async () => {
+    fakeApi({ 'GET /api/v1/session': notSignedIn });
     const { wrapper } = await mountAt('/');
     const nav = wrapper.get('nav[aria-label="Console pages"]');
     const labels = nav.findAll('a').map((a) => a.text().replace(/\s+/g, ' ').trim());
 
     expect(wrapper.get('header').text()).toContain('Gammaline');
-    expect(labels).toEqual([
-      'Status',
-      'Try, coming soon',
-      'Sweeps, coming soon',
-      'Feed lines, coming soon',
-      'Cables, coming soon',
-      'Keys, coming soon',
-      'Usage, coming soon',
-      'Admin, coming soon',
-      'API reference',
-    ]);
+    expect(labels).toEqual(['Status', 'Sign in', 'API reference']);
     expect(nav.get('a[href="/docs"]').text()).toBe('API reference');
     expect(nav.get('a[aria-current="page"]').text()).toBe('Status');
     wrapper.unmount();
   });
 
-  it('opens a planned page that says what it will do, and titles the document', async () => {
-    const { wrapper } = await mountAt('/sweeps');
-    expect(wrapper.get('main h1').text()).toBe('Sweeps');
-    expect(wrapper.get('main').text()).toContain('Touchstone');
-    expect(document.title).toBe('Sweeps · Gammaline');
+  it('shows an admin every page, and a developer every page but Admin', async () => {
+    fakeApi({ 'GET /api/v1/session': () => json(sessionOf('admin')) });
+    const admin = await mountAt('/');
+    const adminLabels = admin.wrapper.get('nav[aria-label="Console pages"]').findAll('a').map((a) => a.text().trim());
+    expect(adminLabels).toEqual(['Status', 'Try', 'Sweeps', 'Feed lines', 'Cables', 'Keys', 'Usage', 'Admin', 'API reference']);
+    expect(admin.wrapper.get('[data-testid="signed-in-as"]').text()).toContain('Demo Admin');
+    admin.wrapper.unmount();
+    document.body.innerHTML = '';
+    document.body.removeAttribute('n-styled');
+
+    fakeApi({ 'GET /api/v1/session': () => json(sessionOf('developer')) });
+    const developer = await mountAt('/');
+    const developerLabels = developer.wrapper.get('nav[aria-label="Console pages"]').findAll('a').map((a) => a.text().trim());
+    expect(developerLabels).not.toContain('Admin');
+    expect(developerLabels).toContain('Keys');
+    developer.wrapper.unmount();
+  });
+
+  it('sends a visitor who is not signed in to sign in first, and remembers where they were going', async () => {
+    fakeApi({ 'GET /api/v1/session': notSignedIn });
+    const { wrapper, router } = await mountAt('/keys');
+    expect(router.currentRoute.value.name).toBe('sign-in');
+    expect(router.currentRoute.value.query.next).toBe('/keys');
+    expect(wrapper.get('main h1').text()).toBe('Sign in');
+    expect(document.title).toBe('Sign in · Gammaline');
+    wrapper.unmount();
+  });
+
+  it('keeps a developer out of the admin page', async () => {
+    fakeApi({ 'GET /api/v1/session': () => json(sessionOf('developer')) });
+    const { wrapper, router } = await mountAt('/admin');
+    expect(router.currentRoute.value.name).toBe('not-allowed');
+    expect(wrapper.get('main').text()).toContain('is for admins');
     wrapper.unmount();
   });
 

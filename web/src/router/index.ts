@@ -1,14 +1,12 @@
 import { createRouter, createWebHistory, type RouterHistory } from 'vue-router';
-import { canEnter, type HeldRoles } from './guards.ts';
+import { useSessionStore } from '../stores/session.ts';
+import { decide } from './guards.ts';
 import { routes } from './routes.ts';
 
-export { routes } from './routes.ts';
+export { menuOrder, routes } from './routes.ts';
 export type { Role, RouteName } from './routes.ts';
 
-/** Until sign-in exists every visitor holds every role. */
-const heldRoles = (): HeldRoles => 'everything';
-
-/** Builds the console router; tests pass a memory history. */
+/** Builds the console router; tests pass a memory history. Needs an active Pinia. */
 export function createConsoleRouter(history: RouterHistory = createWebHistory(import.meta.env.BASE_URL)) {
   const router = createRouter({
     history,
@@ -16,7 +14,18 @@ export function createConsoleRouter(history: RouterHistory = createWebHistory(im
     scrollBehavior: (_to, _from, saved) => saved ?? { top: 0 },
   });
 
-  router.beforeEach((to) => (canEnter(to.meta.roles, heldRoles()) ? true : { name: 'status' }));
+  router.beforeEach(async (to) => {
+    const session = useSessionStore();
+    await session.ensureLoaded();
+    switch (decide(to.meta.roles, session.role)) {
+      case 'enter':
+        return true;
+      case 'sign-in':
+        return { name: 'sign-in', query: { next: to.fullPath } };
+      case 'not-allowed':
+        return { name: 'not-allowed', query: { page: to.meta.title } };
+    }
+  });
 
   router.afterEach((to) => {
     if (typeof document !== 'undefined') {

@@ -1,20 +1,25 @@
-import type { ParamValueZeroOrMore, RouteRecordInfo, RouteRecordRaw } from 'vue-router';
+import type { RouteRecordInfo, RouteRecordRaw, ParamValueZeroOrMore } from 'vue-router';
 
-/** Roles a signed-in person can hold; `meta.roles` lists who may open a page. */
-export type Role = 'admin' | 'member';
+/** Roles a signed-in member holds, as the API names them; `meta.roles` lists who may open a page. */
+export type Role = 'admin' | 'developer';
 
 type NoParams = Record<never, never>;
 
 /** Every named route of the console; `router.push({ name })` is checked against it. */
 export interface RouteNamedMap {
   status: RouteRecordInfo<'status', '/', NoParams, NoParams>;
+  'sign-in': RouteRecordInfo<'sign-in', '/sign-in', NoParams, NoParams>;
+  invitation: RouteRecordInfo<'invitation', '/invitation', NoParams, NoParams>;
+  'password-reset': RouteRecordInfo<'password-reset', '/password-reset', NoParams, NoParams>;
   try: RouteRecordInfo<'try', '/try', NoParams, NoParams>;
   sweeps: RouteRecordInfo<'sweeps', '/sweeps', NoParams, NoParams>;
+  sweep: RouteRecordInfo<'sweep', '/sweeps/:id', { id: string }, { id: string }>;
   'feed-lines': RouteRecordInfo<'feed-lines', '/feed-lines', NoParams, NoParams>;
   cables: RouteRecordInfo<'cables', '/cables', NoParams, NoParams>;
   keys: RouteRecordInfo<'keys', '/keys', NoParams, NoParams>;
   usage: RouteRecordInfo<'usage', '/usage', NoParams, NoParams>;
   admin: RouteRecordInfo<'admin', '/admin', NoParams, NoParams>;
+  'not-allowed': RouteRecordInfo<'not-allowed', '/not-allowed', NoParams, NoParams>;
   'not-found': RouteRecordInfo<
     'not-found',
     '/:path(.*)*',
@@ -40,91 +45,45 @@ declare module 'vue-router' {
   }
 }
 
-const signedIn: readonly Role[] = ['member', 'admin'];
+const signedIn: readonly Role[] = ['developer', 'admin'];
 const adminOnly: readonly Role[] = ['admin'];
 
 const StatusView = () => import('../views/StatusView.vue');
-const PlannedView = () => import('../views/PlannedView.vue');
 const NotFoundView = () => import('../views/NotFoundView.vue');
 
 export const routes: RouteRecordRaw[] = [
   { path: '/', name: 'status', component: StatusView, meta: { title: 'Status', roles: [] } },
+  { path: '/sign-in', name: 'sign-in', component: () => import('../views/SignInView.vue'), meta: { title: 'Sign in', roles: [] } },
   {
-    path: '/try',
-    name: 'try',
-    component: PlannedView,
-    meta: {
-      title: 'Try',
-      roles: signedIn,
-      plannedSummary:
-        'Fill in a form for any calculation endpoint, send it with one of your keys, and read the JSON answer beside the same request written as a curl command.',
-    },
+    path: '/invitation',
+    name: 'invitation',
+    component: () => import('../views/InvitationView.vue'),
+    meta: { title: 'Join your organisation', roles: [] },
   },
   {
-    path: '/sweeps',
-    name: 'sweeps',
-    component: PlannedView,
-    meta: {
-      title: 'Sweeps',
-      roles: signedIn,
-      plannedSummary:
-        'Upload analyzer sweeps (Touchstone one-port or CSV) and follow the upload; see SWR against frequency, a Smith chart, the lowest-SWR frequency and the bands under your SWR limit, at either end of the feed line.',
-    },
+    path: '/password-reset',
+    name: 'password-reset',
+    component: () => import('../views/PasswordResetView.vue'),
+    meta: { title: 'New password', roles: [] },
   },
+  { path: '/try', name: 'try', component: () => import('../views/TryView.vue'), meta: { title: 'Try', roles: signedIn } },
+  { path: '/sweeps', name: 'sweeps', component: () => import('../views/SweepsView.vue'), meta: { title: 'Sweeps', roles: signedIn } },
+  { path: '/sweeps/:id', name: 'sweep', component: () => import('../views/SweepView.vue'), meta: { title: 'Sweep', roles: signedIn } },
   {
     path: '/feed-lines',
     name: 'feed-lines',
-    component: PlannedView,
-    meta: {
-      title: 'Feed lines',
-      roles: signedIn,
-      plannedSummary:
-        'Describe a line of one or more sections and a load, and see the input impedance, matched and total loss, power delivered and dissipated, and the voltage and current peaks along the line.',
-    },
+    component: () => import('../views/FeedLinesView.vue'),
+    meta: { title: 'Feed lines', roles: signedIn },
   },
+  { path: '/cables', name: 'cables', component: () => import('../views/CablesView.vue'), meta: { title: 'Cables', roles: signedIn } },
+  { path: '/keys', name: 'keys', component: () => import('../views/KeysView.vue'), meta: { title: 'Keys', roles: signedIn } },
+  { path: '/usage', name: 'usage', component: () => import('../views/UsageView.vue'), meta: { title: 'Usage', roles: signedIn } },
+  { path: '/admin', name: 'admin', component: () => import('../views/AdminView.vue'), meta: { title: 'Admin', roles: adminOnly } },
   {
-    path: '/cables',
-    name: 'cables',
-    component: PlannedView,
-    meta: {
-      title: 'Cables',
-      roles: signedIn,
-      plannedSummary:
-        'Browse generic cable types by trade designation, with attenuation against frequency and the source of every figure, and define cables of your own.',
-    },
-  },
-  {
-    path: '/keys',
-    name: 'keys',
-    component: PlannedView,
-    meta: {
-      title: 'Keys',
-      roles: signedIn,
-      plannedSummary:
-        'Issue API keys (the secret is shown once), copy them, set a quota for each, see what each has used, and revoke the ones you no longer need.',
-    },
-  },
-  {
-    path: '/usage',
-    name: 'usage',
-    component: PlannedView,
-    meta: {
-      title: 'Usage',
-      roles: signedIn,
-      plannedSummary:
-        'Follow requests and quota use per key over time, and see which keys are close to their limit.',
-    },
-  },
-  {
-    path: '/admin',
-    name: 'admin',
-    component: PlannedView,
-    meta: {
-      title: 'Admin',
-      roles: adminOnly,
-      plannedSummary:
-        'Manage members, roles and invitations, every key in the account and its quota, and, when the server runs locally, read the mail it would have sent.',
-    },
+    path: '/not-allowed',
+    name: 'not-allowed',
+    component: () => import('../views/NotAllowedView.vue'),
+    meta: { title: 'Not for your role', roles: [] },
   },
   {
     path: '/:path(.*)*',
@@ -133,3 +92,6 @@ export const routes: RouteRecordRaw[] = [
     meta: { title: 'Page not found', roles: [] },
   },
 ];
+
+/** Pages in the menu, in order. */
+export const menuOrder: readonly RouteName[] = ['status', 'try', 'sweeps', 'feed-lines', 'cables', 'keys', 'usage', 'admin'];

@@ -1,17 +1,9 @@
-import { Router, type RequestHandler } from 'express';
-import { z } from '../../../zod.ts';
-import { CABLE_CATALOG, cableLossDbPer100m } from '../../../../shared/rf/cables.ts';
-import { M_PER_FT } from '../../../../shared/rf/constants.ts';
-import {
-  CableAttenuationQuerySchema,
-  CableAttenuationSchema,
-  CableIdParamsSchema,
-  CableSchema,
-} from '../../../../shared/schemas/calc.ts';
+import { Router, type RequestHandler, type Response } from 'express';
+import { keyOrSession, meteredProblems, rateLimitHeaders } from '../../../auth/openapi.ts';
 import type { AppContext } from '../../../context.ts';
-import { ApiError } from '../../../http/problem.ts';
-import { validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
-import { calculationProblems, problemResponses, registry } from '../../../openapi/registry.ts';
+import { validateBody } from '../../../http/validate.ts';
+import { calculationProblems, registry } from '../../../openapi/registry.ts';
+import { calculationEnvFor, cableIdsIn } from '../cables/cables.env.ts';
 import { assertFinite, CALCULATIONS, catalogOnly, type CalculationEnv, type CalculationName } from './operations.ts';
 
 /** Authentication and metering for one endpoint, supplied by whoever mounts the router. */
@@ -61,94 +53,49 @@ for (const route of CALCULATION_ROUTES) {
     tags: ['Calculations'],
     summary: route.summary,
     description: route.description,
+    security: keyOrSession,
     request: { body: { required: true, content: { 'application/json': { schema: calc.request } } } },
     responses: {
-      200: { description: 'The result, in full double precision; unbounded values are `null`.', content: { 'application/json': { schema: calc.result } } },
+      200: {
+        description: 'The result, in full double precision; unbounded values are `null`.',
+        headers: rateLimitHeaders,
+        content: { 'application/json': { schema: calc.result } },
+      },
       ...calculationProblems,
+      ...meteredProblems,
     },
   });
 }
 
-registry.registerPath({
-  method: 'get',
-  path: '/api/v1/cables',
-  tags: ['Cables'],
-  summary: 'The cable catalog',
-  description: 'Generic cable types by trade designation, with impedance, velocity factor, attenuation model, voltage rating where known, and the source of each entry.',
-  responses: { 200: { description: 'Every cable.', content: { 'application/json': { schema: z.object({ cables: z.array(CableSchema) }) } } } },
-});
+/**
+ * The cables a request may use: a fixed set when the router was built with one (tests), otherwise the
+ * catalog plus the caller's account cables that the body names.
+ */
+export function calculationEnv(ctx: AppContext, fixed?: CalculationEnv): RequestHandler {
+  return async (_req, res, next) => {
+    const caller = res.locals.caller;
+    res.locals.calculationEnv = fixed ?? (caller ? await calculationEnvFor(ctx.database.db, caller.organisationId, cableIdsIn(res.locals.body)) : catalogOnly);
+    next();
+  };
+}
 
-registry.registerPath({
-  method: 'get',
-  path: '/api/v1/cables/{id}',
-  tags: ['Cables'],
-  summary: 'One cable',
-  request: { params: CableIdParamsSchema },
-  responses: { 200: { description: 'The cable.', content: { 'application/json': { schema: CableSchema } } }, ...problemResponses.notFound },
-});
+/** The env a route set up with `calculationEnv`. */
+export function envOf(res: Response): CalculationEnv {
+  return (res.locals.calculationEnv as CalculationEnv | undefined) ?? catalogOnly;
+}
 
-registry.registerPath({
-  method: 'get',
-  path: '/api/v1/cables/{id}/attenuation',
-  tags: ['Cables'],
-  summary: 'Matched loss of a cable at a frequency',
-  request: { params: CableIdParamsSchema, query: CableAttenuationQuerySchema },
-  responses: {
-    200: { description: 'Loss per 100 m / 100 ft, and for the given length.', content: { 'application/json': { schema: CableAttenuationSchema } } },
-    ...problemResponses.notFound,
-    ...calculationProblems,
-  },
-});
-
-/** The calculation endpoints and the cable catalog. */
-export function calcRouter(_ctx: AppContext, options: { guard?: EndpointGuard; env?: CalculationEnv } = {}): Router {
+/** The calculation endpoints; the cable catalog lives in the cables module. */
+export function calcRouter(ctx: AppContext, options: { guard?: EndpointGuard; env?: CalculationEnv } = {}): Router {
   const guard = options.guard ?? (() => []);
-  const env = options.env ?? catalogOnly;
+  const env = calculationEnv(ctx, options.env);
   const router = Router();
 
   for (const route of CALCULATION_ROUTES) {
     const calc = CALCULATIONS[route.name];
-    router.post(route.path, ...guard(route.name, { metered: true }), validateBody(calc.request), (_req, res) => {
-      res.json(assertFinite(calc.run(res.locals.body as never, env)));
+    router.post(route.path, ...guard(route.name, { metered: true }), validateBody(calc.request), env, (_req, res) => {
+      res.json(assertFinite(calc.run(res.locals.body as never, envOf(res))));
     });
   }
-
-  router.get('/cables', ...guard('cables', { metered: false }), (_req, res) => {
-    res.json({ cables: CABLE_CATALOG });
-  });
-
-  const findOr404: RequestHandler = (_req, res, next) => {
-    const { id } = res.locals.params as z.infer<typeof CableIdParamsSchema>;
-    const cable = env.findCable(id);
-    if (!cable) throw new ApiError('notFound', `No cable '${id}'; GET /api/v1/cables lists the available ids.`);
-    res.locals.cable = cable;
-    next();
-  };
-
-  router.get('/cables/:id', ...guard('cables', { metered: false }), validateParams(CableIdParamsSchema), findOr404, (_req, res) => {
-    res.json(res.locals.cable);
-  });
-
-  router.get(
-    '/cables/:id/attenuation',
-    ...guard('cableAttenuation', { metered: true }),
-    validateParams(CableIdParamsSchema),
-    findOr404,
-    validateQuery(CableAttenuationQuerySchema),
-    (_req, res) => {
-      const { frequencyHz, lengthM, lengthFt } = res.locals.query as z.infer<typeof CableAttenuationQuerySchema>;
-      const lossDbPer100m = cableLossDbPer100m(res.locals.cable, frequencyHz);
-      const length = lengthM ?? (lengthFt === undefined ? undefined : lengthFt * M_PER_FT);
-      const body: z.input<typeof CableAttenuationSchema> = {
-        cableId: res.locals.cable.id,
-        frequencyHz,
-        lossDbPer100m,
-        lossDbPer100ft: lossDbPer100m * M_PER_FT,
-        ...(length === undefined ? {} : { lengthM: length, lossDb: (lossDbPer100m * length) / 100 }),
-      };
-      res.json(assertFinite(body));
-    },
-  );
 
   return router;
 }

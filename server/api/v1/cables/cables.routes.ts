@@ -1,0 +1,205 @@
+import { Router, type RequestHandler } from 'express';
+import { z } from '../../../zod.ts';
+import { CABLE_CATALOG, cableLossDbPer100m, findCable, type CableType } from '../../../../shared/rf/cables.ts';
+import { M_PER_FT } from '../../../../shared/rf/constants.ts';
+import { CableAttenuationQuerySchema, CableAttenuationSchema, CableIdParamsSchema } from '../../../../shared/schemas/calc.ts';
+import {
+  AccountCableIdParamsSchema,
+  accountCableIdFrom,
+  CableEntrySchema,
+  CableListSchema,
+  CreateAccountCableSchema,
+  UpdateAccountCableSchema,
+} from '../../../../shared/schemas/cables.ts';
+import type { AppContext } from '../../../context.ts';
+import { callerOf, calculationGuard, requireAdmin, requireCaller, requireSession } from '../../../auth/caller.ts';
+import { authProblems, keyOrSession, meteredProblems, rateLimitHeaders, sessionOnly } from '../../../auth/openapi.ts';
+import { ApiError } from '../../../http/problem.ts';
+import { validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
+import { calculationProblems, problemResponses, registry } from '../../../openapi/registry.ts';
+import { assertFinite } from '../calc/operations.ts';
+import { deleteAccountCable, feedlinesUsingCable, findAccountCables, insertAccountCable, listAccountCables, updateAccountCable } from './cables.repository.ts';
+
+const tags = ['Cables'];
+const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
+
+type Entry = z.input<typeof CableEntrySchema>;
+const catalogEntry = (c: CableType): Entry => ({ ...c, origin: 'catalog' });
+const accountEntry = (c: CableType & { updatedAt: string }): Entry => ({ ...c, origin: 'account' });
+
+registry.registerPath({
+  method: 'get',
+  path: '/api/v1/cables',
+  tags,
+  summary: 'The cable catalog and your organisation\'s cables',
+  description:
+    'Generic cable types by trade designation (`origin: "catalog"`), with impedance, velocity factor, attenuation model, voltage rating where known, and the source of each entry; then the cables admins of your organisation defined (`origin: "account"`, ids starting with `account-`). Any of these ids works as `cableId` everywhere.',
+  security: keyOrSession,
+  responses: { 200: { description: 'Every cable you can use.', ...json(CableListSchema) }, ...authProblems.unauthenticated },
+});
+
+registry.registerPath({
+  method: 'get',
+  path: '/api/v1/cables/{id}',
+  tags,
+  summary: 'One cable',
+  security: keyOrSession,
+  request: { params: CableIdParamsSchema },
+  responses: { 200: { description: 'The cable.', ...json(CableEntrySchema) }, ...authProblems.unauthenticated, ...problemResponses.notFound },
+});
+
+registry.registerPath({
+  method: 'get',
+  path: '/api/v1/cables/{id}/attenuation',
+  tags,
+  summary: 'Matched loss of a cable at a frequency',
+  security: keyOrSession,
+  request: { params: CableIdParamsSchema, query: CableAttenuationQuerySchema },
+  responses: {
+    200: { description: 'Loss per 100 m / 100 ft, and for the given length.', headers: rateLimitHeaders, ...json(CableAttenuationSchema) },
+    ...problemResponses.notFound,
+    ...calculationProblems,
+    ...meteredProblems,
+  },
+});
+
+registry.registerPath({
+  method: 'post',
+  path: '/api/v1/cables',
+  tags,
+  summary: 'Define a cable for your organisation (admins)',
+  description:
+    'The cable becomes usable as `cableId` in every calculation, batch, feed line and sweep of your organisation. Its id starts with `account-` so it never collides with a catalog id; without `id`, one is made from the designation.',
+  security: sessionOnly,
+  request: { body: { required: true, ...json(CreateAccountCableSchema) } },
+  responses: {
+    201: { description: 'The cable.', ...json(CableEntrySchema) },
+    ...problemResponses.validation,
+    ...authProblems.unauthenticated,
+    ...authProblems.forbidden,
+    ...authProblems.conflict,
+  },
+});
+
+registry.registerPath({
+  method: 'patch',
+  path: '/api/v1/cables/{id}',
+  tags,
+  summary: 'Change one of your organisation\'s cables (admins)',
+  description: 'Feed lines on the cable use the new figures from then on; sweeps already stored keep the points they were moved to.',
+  security: sessionOnly,
+  request: { params: AccountCableIdParamsSchema, body: { required: true, ...json(UpdateAccountCableSchema) } },
+  responses: {
+    200: { description: 'The cable after the change.', ...json(CableEntrySchema) },
+    ...problemResponses.validation,
+    ...authProblems.unauthenticated,
+    ...authProblems.forbidden,
+    ...problemResponses.notFound,
+  },
+});
+
+registry.registerPath({
+  method: 'delete',
+  path: '/api/v1/cables/{id}',
+  tags,
+  summary: 'Remove one of your organisation\'s cables (admins)',
+  description: 'Refused (409) while a saved feed line uses the cable; the problem names those feed lines.',
+  security: sessionOnly,
+  request: { params: AccountCableIdParamsSchema },
+  responses: {
+    204: { description: 'Removed.' },
+    ...problemResponses.validation,
+    ...authProblems.unauthenticated,
+    ...authProblems.forbidden,
+    ...problemResponses.notFound,
+    ...authProblems.conflict,
+  },
+});
+
+const notFound = (id: string) => new ApiError('notFound', `No cable '${id}' in the catalog or your organisation; GET /api/v1/cables lists the available ids.`);
+
+/** The cable catalog, account cables, and cable attenuation. */
+export function cablesRouter(ctx: AppContext): Router {
+  const router = Router();
+  const db = ctx.database.db;
+  const admin = [requireSession(ctx), requireAdmin];
+
+  router.get('/cables', requireCaller(ctx), async (_req, res) => {
+    const own = await listAccountCables(db, callerOf(res).organisationId);
+    res.json({ cables: [...CABLE_CATALOG.map(catalogEntry), ...own.map(accountEntry)] });
+  });
+
+  const findOr404: RequestHandler = async (_req, res, next) => {
+    const { id } = res.locals.params as z.infer<typeof CableIdParamsSchema>;
+    const catalog = findCable(id);
+    if (catalog) {
+      res.locals.cable = catalogEntry(catalog);
+    } else {
+      const [own] = await findAccountCables(db, callerOf(res).organisationId, [id]);
+      if (!own) throw notFound(id);
+      res.locals.cable = accountEntry(own);
+    }
+    next();
+  };
+
+  router.get('/cables/:id', requireCaller(ctx), validateParams(CableIdParamsSchema), findOr404, (_req, res) => {
+    res.json(res.locals.cable);
+  });
+
+  router.get(
+    '/cables/:id/attenuation',
+    ...calculationGuard(ctx, 'cableAttenuation'),
+    validateParams(CableIdParamsSchema),
+    findOr404,
+    validateQuery(CableAttenuationQuerySchema),
+    (_req, res) => {
+      const { frequencyHz, lengthM, lengthFt } = res.locals.query as z.infer<typeof CableAttenuationQuerySchema>;
+      const cable = res.locals.cable as CableType;
+      const lossDbPer100m = cableLossDbPer100m(cable, frequencyHz);
+      const length = lengthM ?? (lengthFt === undefined ? undefined : lengthFt * M_PER_FT);
+      const body: z.input<typeof CableAttenuationSchema> = {
+        cableId: cable.id,
+        frequencyHz,
+        lossDbPer100m,
+        lossDbPer100ft: lossDbPer100m * M_PER_FT,
+        ...(length === undefined ? {} : { lengthM: length, lossDb: (lossDbPer100m * length) / 100 }),
+      };
+      res.json(assertFinite(body));
+    },
+  );
+
+  router.post('/cables', ...admin, validateBody(CreateAccountCableSchema), async (_req, res) => {
+    const caller = callerOf(res);
+    const { id, ...values } = res.locals.body as z.infer<typeof CreateAccountCableSchema>;
+    const cableId = id ?? accountCableIdFrom(values.designation);
+    const created = await insertAccountCable(db, { ...values, organisationId: caller.organisationId, cableId, createdBy: caller.userId });
+    if (!created) {
+      throw new ApiError('conflict', `Your organisation already has a cable '${cableId}'; choose another id (field id) or change that cable with PATCH /api/v1/cables/${cableId}.`, {
+        errors: [{ field: 'id', message: `'${cableId}' is taken` }],
+      });
+    }
+    res.status(201).json(accountEntry(created));
+  });
+
+  router.patch('/cables/:id', ...admin, validateParams(AccountCableIdParamsSchema), validateBody(UpdateAccountCableSchema), async (_req, res) => {
+    const { id } = res.locals.params as { id: string };
+    const updated = await updateAccountCable(db, { organisationId: callerOf(res).organisationId, cableId: id }, res.locals.body as z.infer<typeof UpdateAccountCableSchema>);
+    if (!updated) throw notFound(id);
+    res.json(accountEntry(updated));
+  });
+
+  router.delete('/cables/:id', ...admin, validateParams(AccountCableIdParamsSchema), async (_req, res) => {
+    const { id } = res.locals.params as { id: string };
+    const scope = { organisationId: callerOf(res).organisationId, cableId: id };
+    await db.transaction(async (tx) => {
+      const users = await feedlinesUsingCable(tx, scope);
+      if (users.length > 0) {
+        throw new ApiError('conflict', `The cable '${id}' is used by the feed line(s) ${users.map((n) => `"${n}"`).join(', ')}; change their sections first (PATCH /api/v1/feedlines/{id}).`);
+      }
+      if (!(await deleteAccountCable(tx, scope))) throw notFound(id);
+    });
+    res.status(204).end();
+  });
+
+  return router;
+}

@@ -1,0 +1,79 @@
+import { mkdirSync, mkdtempSync, rmSync } from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { chromium, type BrowserContext, type Page } from 'playwright-core';
+import { inject } from 'vitest';
+
+export const baseUrl = inject('baseUrl');
+/** False outside `npm test`; the suites then skip, and global-setup says why. */
+export const serverRunning = baseUrl !== '';
+
+export const DEMO_ADMIN = { email: 'admin@kestrel-ridge.example', password: 'gammaline-demo-2026' } as const;
+
+const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..', '..');
+export const artifacts = path.join(root, 'test-artifacts');
+export const fixtures = path.join(root, 'tests', 'fixtures', 'sweeps');
+
+export interface Browser {
+  context: BrowserContext;
+  page: Page;
+  close(): Promise<void>;
+}
+
+/** Debian's Chromium, headless, with a profile of its own that is removed afterwards. */
+export async function openBrowser(viewport = { width: 1280, height: 900 }): Promise<Browser> {
+  const profile = mkdtempSync(path.join(os.tmpdir(), 'gammaline-e2e-'));
+  const context = await chromium.launchPersistentContext(profile, {
+    executablePath: '/usr/bin/chromium',
+    headless: true,
+    viewport,
+    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
+  });
+  context.setDefaultTimeout(15_000);
+  await context.grantPermissions(['clipboard-read', 'clipboard-write'], { origin: baseUrl });
+  const page = context.pages()[0] ?? (await context.newPage());
+  return {
+    context,
+    page,
+    async close() {
+      await context.close();
+      rmSync(profile, { recursive: true, force: true });
+    },
+  };
+}
+
+export async function signIn(page: Page, who: { email: string; password: string } = DEMO_ADMIN): Promise<void> {
+  await page.goto(`${baseUrl}/sign-in`);
+  await page.getByLabel('E-mail').fill(who.email);
+  await page.getByLabel('Password', { exact: true }).fill(who.password);
+  await page.getByRole('button', { name: 'Sign in', exact: true }).click();
+  await page.waitForURL((url) => !url.pathname.startsWith('/sign-in'));
+  await page.getByTestId('signed-in-as').waitFor();
+}
+
+/** A full-page screenshot under test-artifacts/ (git-ignored). */
+export async function snapshot(page: Page, name: string): Promise<void> {
+  mkdirSync(artifacts, { recursive: true });
+  await page.screenshot({ path: path.join(artifacts, `${name}.png`), fullPage: true });
+}
+
+/** The API called directly, as an integrator's program would. */
+export async function apiCall(pathname: string, init: { method?: string; key?: string; body?: unknown } = {}): Promise<{ status: number; body: unknown }> {
+  const headers: Record<string, string> = { accept: 'application/json' };
+  if (init.key) headers.authorization = `Bearer ${init.key}`;
+  if (init.body !== undefined) headers['content-type'] = 'application/json';
+  const response = await fetch(`${baseUrl}${pathname}`, {
+    method: init.method ?? (init.body === undefined ? 'GET' : 'POST'),
+    headers,
+    body: init.body === undefined ? undefined : JSON.stringify(init.body),
+  });
+  const text = await response.text();
+  let body: unknown = text;
+  try {
+    body = JSON.parse(text);
+  } catch {
+    // Not JSON; keep the text.
+  }
+  return { status: response.status, body };
+}

@@ -1,0 +1,65 @@
+import { afterEach, describe, expect, it } from 'vitest';
+import { flushPromises, mount } from '@vue/test-utils';
+import MatchForm from './MatchForm.vue';
+import MismatchForm from './MismatchForm.vue';
+import type { FormState } from './request.ts';
+
+afterEach(() => {
+  document.body.innerHTML = '';
+});
+
+function lastState(wrapper: { emitted: (name: string) => unknown[][] | undefined }): FormState {
+  const events = wrapper.emitted('change') ?? [];
+  return events[events.length - 1]![0] as FormState;
+}
+
+async function type(wrapper: ReturnType<typeof mount>, selector: string, value: string): Promise<void> {
+  const input = wrapper.get(selector);
+  await input.setValue(value);
+  await input.trigger('blur');
+  await flushPromises();
+}
+
+describe('the mismatch form of the Try page', () => {
+  it('starts with a forward/reflected power reading ready to send, units on every label', async () => {
+    const wrapper = mount(MismatchForm, { attachTo: document.body });
+    await flushPromises();
+    expect(lastState(wrapper)).toEqual({
+      request: { endpoint: 'mismatch', method: 'POST', path: '/api/v1/mismatch', body: { forwardPowerW: 100, reflectedPowerW: 4 } },
+      issues: [],
+    });
+    expect(wrapper.get('label[for="mm-forwardPowerW"]').text()).toContain('(W)');
+    wrapper.unmount();
+  });
+
+  it('checks the body with the schema the server validates with: a negative power is refused', async () => {
+    const wrapper = mount(MismatchForm, { attachTo: document.body });
+    await type(wrapper, '#mm-reflectedPowerW', '-3');
+    const state = lastState(wrapper);
+    expect(state.request).toBeNull();
+    expect(state.issues.join(' ')).toMatch(/reflectedPowerW/);
+    wrapper.unmount();
+  });
+
+  it('asks for a value rather than sending an empty field', async () => {
+    const wrapper = mount(MismatchForm, { attachTo: document.body });
+    await type(wrapper, '#mm-forwardPowerW', '');
+    expect(lastState(wrapper).request).toBeNull();
+    expect(lastState(wrapper).issues).toContain('Forward power: enter a value');
+    wrapper.unmount();
+  });
+});
+
+describe('the L-network form of the Try page', () => {
+  it('sends the frequency in hertz, the load as R + jX and the source impedance', async () => {
+    const wrapper = mount(MatchForm, { attachTo: document.body });
+    await type(wrapper, '#mt-f', '7.1');
+    expect(lastState(wrapper).request).toEqual({
+      endpoint: 'match',
+      method: 'POST',
+      path: '/api/v1/match',
+      body: { frequencyHz: 7_100_000, loadOhm: { re: 12, im: -30 }, sourceOhm: 50 },
+    });
+    wrapper.unmount();
+  });
+});

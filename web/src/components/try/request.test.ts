@@ -1,0 +1,28 @@
+import { describe, expect, it } from 'vitest';
+import { curlCommand, mhzToHz, requestUrl, type TryRequest } from './request.ts';
+
+const mismatch: TryRequest = { endpoint: 'mismatch', method: 'POST', path: '/api/v1/mismatch', body: { forwardPowerW: 100, reflectedPowerW: 4 } };
+
+describe('the request written out for people', () => {
+  it('turns MHz into whole hertz without binary noise', () => {
+    expect(mhzToHz(14.2)).toBe(14_200_000);
+    expect(mhzToHz(7.1)).toBe(7_100_000);
+  });
+
+  it('writes a POST as curl with the body as sent', () => {
+    const text = curlCommand('http://127.0.0.1:8080', mismatch, null);
+    expect(text).toContain("curl -sS -X POST 'http://127.0.0.1:8080/api/v1/mismatch'");
+    expect(text).toContain('"Authorization: Bearer $GAMMALINE_KEY"');
+    expect(text).toContain(`-d '{"forwardPowerW":100,"reflectedPowerW":4}'`);
+  });
+
+  it('places a pasted key in the command, quoted for the shell', () => {
+    expect(curlCommand('http://h', mismatch, "gml_a'b")).toContain(`-H 'Authorization: Bearer gml_a'\\''b'`);
+  });
+
+  it('writes a GET with its query string', () => {
+    const get: TryRequest = { endpoint: 'attenuation', method: 'GET', path: '/api/v1/cables/rg-213/attenuation', cableId: 'rg-213', query: { frequencyHz: 14_200_000, lengthFt: 100 } };
+    expect(requestUrl('http://h', get)).toBe('http://h/api/v1/cables/rg-213/attenuation?frequencyHz=14200000&lengthFt=100');
+    expect(curlCommand('http://h', get, null)).not.toContain('-X POST');
+  });
+});

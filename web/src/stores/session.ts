@@ -1,0 +1,64 @@
+import { computed, ref, shallowRef } from 'vue';
+import { defineStore } from 'pinia';
+import { api, setCsrfToken, unwrap, unwrapEmpty, type Schemas } from '../api/client.ts';
+import type { Role } from '../router/routes.ts';
+
+export type SessionView = Schemas['Session'];
+
+/** The signed-in member, or nobody. Loaded once per page load, then kept in step by sign-in and sign-out. */
+export const useSessionStore = defineStore('session', () => {
+  const current = shallowRef<SessionView | null>(null);
+  const loaded = ref(false);
+  let pending: Promise<void> | null = null;
+
+  const member = computed(() => current.value?.member ?? null);
+  const organisation = computed(() => current.value?.organisation ?? null);
+  const role = computed<Role | null>(() => current.value?.member.role ?? null);
+  const isAdmin = computed(() => role.value === 'admin');
+  const signedIn = computed(() => current.value !== null);
+
+  function set(view: SessionView | null): void {
+    current.value = view;
+    setCsrfToken(view?.csrfToken ?? null);
+    loaded.value = true;
+  }
+
+  /** Asks the server who we are; a 401 simply means nobody is signed in. */
+  function ensureLoaded(): Promise<void> {
+    if (loaded.value) return Promise.resolve();
+    pending ??= unwrap(api.GET('/api/v1/session'))
+      .then(
+        (view) => set(view),
+        () => {
+          // Signed out (401) or offline: the console still opens, on the pages that need nobody;
+          // the Status page tells an unreachable server apart.
+          set(null);
+        },
+      )
+      .finally(() => {
+        pending = null;
+      });
+    return pending;
+  }
+
+  async function signIn(email: string, password: string): Promise<SessionView> {
+    const view = await unwrap(api.POST('/api/v1/session', { body: { email, password } }));
+    set(view);
+    return view;
+  }
+
+  async function signOut(): Promise<void> {
+    try {
+      await unwrapEmpty(api.DELETE('/api/v1/session'));
+    } finally {
+      set(null);
+    }
+  }
+
+  /** The server said 401 on a session call: the session ended elsewhere (expiry, reset, disabled). */
+  function forget(): void {
+    set(null);
+  }
+
+  return { current, loaded, member, organisation, role, isAdmin, signedIn, ensureLoaded, signIn, signOut, forget };
+});
