@@ -44,6 +44,18 @@ const UsageSchema = z
         }),
       )
       .openapi({ description: 'Per key, and one entry per member for console calls.' }),
+    dailyByEndpoint: z
+      .array(z.object({ endpoint: z.string().openapi({ example: 'line' }), units: z.array(z.number().int()) }))
+      .openapi({ description: 'Units per day for each endpoint; `units[i]` belongs to `days[i]`.' }),
+    dailyByKey: z
+      .array(
+        z.object({
+          keyId: z.uuid().nullable().openapi({ description: 'null: console calls of `userId`.' }),
+          userId: z.uuid(),
+          units: z.array(z.number().int()),
+        }),
+      )
+      .openapi({ description: 'Units per day for each key (and each member\'s console calls); `units[i]` belongs to `days[i]`.' }),
   })
   .openapi('Usage');
 
@@ -101,7 +113,25 @@ export function usageRouter(ctx: AppContext): Router {
       from usage_daily u left join api_keys k on k.id = u.key_id and k.organisation_id = u.organisation_id
       where ${where} group by u.key_id, k.name, k.display_start, u.user_id order by sum(u.units) desc, u.key_id`);
 
+    const daily = await db.execute<{ day: string; endpoint: string; key_id: string | null; user_id: string; units: string }>(sql`
+      select to_char(u.day, 'YYYY-MM-DD') as day, u.endpoint, u.key_id, u.user_id, u.units
+      from usage_daily u where ${where}`);
+
     const dayRows = days.rows.map((r) => ({ day: r.day, units: Number(r.units), requests: Number(r.requests) }));
+    const dayIndex = new Map(dayRows.map((d, i) => [d.day, i]));
+    const byEndpointSeries = new Map<string, number[]>();
+    const byKeySeries = new Map<string, { keyId: string | null; userId: string; units: number[] }>();
+    for (const r of daily.rows) {
+      const i = dayIndex.get(r.day);
+      if (i === undefined) continue;
+      const endpointUnits = byEndpointSeries.get(r.endpoint) ?? new Array<number>(dayRows.length).fill(0);
+      endpointUnits[i]! += Number(r.units);
+      byEndpointSeries.set(r.endpoint, endpointUnits);
+      const seriesKey = r.key_id ?? `console:${r.user_id}`;
+      const keySeries = byKeySeries.get(seriesKey) ?? { keyId: r.key_id, userId: r.user_id, units: new Array<number>(dayRows.length).fill(0) };
+      keySeries.units[i]! += Number(r.units);
+      byKeySeries.set(seriesKey, keySeries);
+    }
     res.json({
       scope: isAdmin && !q.userId ? 'organisation' : 'own',
       from,
@@ -111,6 +141,8 @@ export function usageRouter(ctx: AppContext): Router {
       days: dayRows,
       byEndpoint: endpoints.rows.map((r) => ({ endpoint: r.endpoint, units: Number(r.units), requests: Number(r.requests) })),
       byKey: keys.rows.map((r) => ({ keyId: r.key_id, keyName: r.name, displayStart: r.display_start, userId: r.user_id, units: Number(r.units), requests: Number(r.requests) })),
+      dailyByEndpoint: [...byEndpointSeries].sort(([a], [b]) => a.localeCompare(b)).map(([endpoint, units]) => ({ endpoint, units })),
+      dailyByKey: [...byKeySeries.values()],
     } satisfies z.infer<typeof UsageSchema>);
   });
 
