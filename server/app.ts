@@ -11,7 +11,11 @@ import { systemClock, type AppContext, type Clock } from './context.ts';
 import type { Database } from './db/client.ts';
 import { healthRouter } from './api/health.routes.ts';
 import { v1Router } from './api/v1/router.ts';
+import { byteSize, refuseOversizedBodies } from './http/body-size.ts';
 import { notFoundHandler, problemErrorHandler } from './http/error-middleware.ts';
+import { BATCH_JSON_LIMIT } from './api/v1/batch/batch.routes.ts';
+import { NDJSON_TYPE } from './api/v1/batch/batch.ndjson.ts';
+import { MAX_SWEEP_UPLOAD_BYTES } from './api/v1/sweeps/sweeps.upload.ts';
 import { openApiDocument } from './openapi/document.ts';
 import { sessionMiddleware } from './auth/session.ts';
 import { createLogOnlyMailer, type Mailer } from './mail/mailer.ts';
@@ -28,6 +32,8 @@ export interface AppDependencies {
 const REQUEST_ID_PATTERN = /^[A-Za-z0-9._-]{1,64}$/;
 /** Routes that parse their own body (see server/api/v1/batch). */
 const OWN_BODY_PATH = /^\/api\/v1\/batch\/?$/i;
+/** The one route that takes multipart uploads (see server/api/v1/sweeps). */
+const UPLOAD_PATH = /^\/api\/v1\/sweeps\/?$/i;
 
 /** Builds the whole HTTP application from its dependencies; listening is the caller's business. */
 export function createApp(deps: AppDependencies): Express {
@@ -54,7 +60,8 @@ export function createApp(deps: AppDependencies): Express {
         res.setHeader('X-Request-Id', id);
         return id;
       },
-      redact: ['req.headers.authorization', 'req.headers.cookie', 'res.headers["set-cookie"]'],
+      // Credentials never reach the log: the key, the session cookie, and the session's CSRF token.
+      redact: ['req.headers.authorization', 'req.headers.cookie', 'req.headers["x-csrf-token"]', 'req.headers["proxy-authorization"]', 'res.headers["set-cookie"]'],
     }),
   );
   // Local mode is plain HTTP on loopback (or a LAN address): forcing HTTPS there would break the console.
@@ -63,6 +70,15 @@ export function createApp(deps: AppDependencies): Express {
     helmet({
       strictTransportSecurity: !local,
       contentSecurityPolicy: { directives: { upgradeInsecureRequests: local ? null : [] } },
+    }),
+  );
+  const bodyLimit = byteSize(deps.config.bodyLimit);
+  const batchLimit = byteSize(BATCH_JSON_LIMIT);
+  app.use(
+    refuseOversizedBodies((req) => {
+      if (OWN_BODY_PATH.test(req.path)) return req.is(NDJSON_TYPE) ? undefined : batchLimit;
+      if (UPLOAD_PATH.test(req.path) && req.is('multipart/form-data')) return MAX_SWEEP_UPLOAD_BYTES;
+      return bodyLimit;
     }),
   );
   const jsonBody = express.json({ limit: deps.config.bodyLimit, type: ['application/json', 'application/*+json'] });

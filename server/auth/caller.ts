@@ -1,3 +1,4 @@
+import { createHash } from 'node:crypto';
 import type { NextFunction, Request, RequestHandler, Response } from 'express';
 import { rateLimit, type RateLimitInfo } from 'express-rate-limit';
 import { eq } from 'drizzle-orm';
@@ -6,10 +7,12 @@ import { organisations, users } from '../db/schema.ts';
 import { ApiError } from '../http/problem.ts';
 import { SECONDS_PER_DAY, secondsUntilUtcMidnight, utcDay } from '../quota/day.ts';
 import { PgRateLimitStore } from '../quota/pg-rate-limit-store.ts';
-import { recordConsoleUsage, spendKeyUnits } from '../quota/quota.repository.ts';
+import { recordConsoleUsage } from '../quota/quota.repository.ts';
 import { sendQuotaWarnings } from '../quota/warnings.ts';
+import { hashApiKey, looksLikeApiKey } from './api-key.ts';
+import { keyServicesFor } from './key-services.ts';
 import { csrfSatisfied } from './session.ts';
-import { verifyApiKey } from './verify-key.ts';
+import { verifyApiKeyHash, type KeyVerification } from './verify-key.ts';
 
 /** Who is calling: a key (integrations) or a signed-in console session. */
 export type Caller = {
@@ -44,16 +47,38 @@ function unauthenticated(): ApiError {
   return new ApiError('unauthenticated', UNAUTHENTICATED_DETAIL, { headers: { 'WWW-Authenticate': 'Bearer realm="gammaline"' } });
 }
 
+/**
+ * Verifies a presented key: a valid verification is reused from the process cache while the
+ * key-change listener is connected (changes are announced through NOTIFY and drop the entry at once);
+ * otherwise, and for every refused key, one indexed lookup in the database.
+ */
+async function verifyKey(ctx: AppContext, presented: string, now: Date): Promise<KeyVerification> {
+  if (!looksLikeApiKey(presented)) return { outcome: 'malformed' };
+  const services = keyServicesFor(ctx.database, ctx.logger);
+  const hash = hashApiKey(presented);
+  const usable = services.cacheUsable();
+  if (usable) {
+    const cached = services.cache.get(hash, now);
+    if (cached) return { outcome: 'valid', key: cached };
+  }
+  const generation = services.cache.generation;
+  const verified = await verifyApiKeyHash(ctx.database.db, hash, now);
+  if (verified.outcome === 'valid' && usable && services.cacheUsable()) services.cache.put(hash, verified.key, generation);
+  return verified;
+}
+
 async function callerFromKey(ctx: AppContext, req: Request, res: Response, header: string): Promise<Caller> {
   const match = /^Bearer[ ]+(\S+)\s*$/i.exec(header);
   if (!match?.[1]) throw unauthenticated();
-  const verified = await verifyApiKey(ctx.database.db, match[1], ctx.clock.now());
+  const now = ctx.clock.now();
+  const verified = await verifyKey(ctx, match[1], now);
   if (verified.outcome !== 'valid') {
     // The outcome is for operators' logs only; the caller always gets the same 401.
     req.log?.info({ keyOutcome: verified.outcome }, 'key refused');
     throw unauthenticated();
   }
   const k = verified.key;
+  keyServicesFor(ctx.database, ctx.logger).lastUsed.touch(k.keyId, now);
   res.locals.callerLimits = {
     burstPerMinute: k.burstPerMinute,
     key: { id: k.keyId, name: k.name, displayStart: k.displayStart, dailyQuota: k.dailyQuota, ownerEmail: k.ownerEmail },
@@ -133,7 +158,10 @@ export function callerOf(res: Response): Caller {
 
 const BURST_WINDOW_MS = 60_000;
 
-/** One burst limiter per app: every metered endpoint shares a caller's per-minute allowance. */
+/**
+ * One burst limiter per app for console calls: every metered endpoint shares a member's per-minute
+ * allowance. Key calls count their burst hits in the group-commit statement instead (meterKey).
+ */
 const burstLimiters = new WeakMap<AppContext, RequestHandler>();
 
 function burstLimiter(ctx: AppContext): RequestHandler {
@@ -170,17 +198,29 @@ function unitsOf(units: ((req: Request, res: Response) => number) | undefined, r
   return Number.isFinite(n) && n >= 1 ? Math.floor(n) : 1;
 }
 
-async function spend(ctx: AppContext, endpoint: string, units: number, req: Request, res: Response): Promise<void> {
+/** Console calls: the burst limit through express-rate-limit, then the usage row; no key quota. */
+async function meterSession(ctx: AppContext, endpoint: string, units: number, res: Response): Promise<void> {
   const caller = res.locals.caller as Caller;
-  const limits = res.locals.callerLimits as CallerLimits;
+  await recordConsoleUsage(ctx.database.db, { organisationId: caller.organisationId, userId: caller.userId, endpoint, day: utcDay(ctx.clock.now()), units });
+}
+
+/** express-rate-limit's draft-8 partition key, so key and console answers carry the same header shape. */
+function partitionKey(key: string): string {
+  return Buffer.from(createHash('sha256').update(key).digest('hex').slice(0, 12)).toString('base64');
+}
+
+/**
+ * Key calls: burst hit and quota spend decided together by the key's group-commit queue (one statement
+ * for all requests of the key waiting at that moment). The limits applied are the database's current
+ * ones; the answer carries the same `"burst"` and `"daily"` header items as before.
+ */
+async function meterKey(ctx: AppContext, endpoint: string, units: number, res: Response): Promise<void> {
+  const caller = res.locals.caller as Caller;
+  const key = (res.locals.callerLimits as CallerLimits).key!;
   const now = ctx.clock.now();
   const day = utcDay(now);
-  const key = limits.key;
-  if (caller.kind === 'session' || !key) {
-    await recordConsoleUsage(ctx.database.db, { organisationId: caller.organisationId, userId: caller.userId, endpoint, day, units });
-    return;
-  }
-  const result = await spendKeyUnits(ctx.database.db, {
+  const burstKey = `key:${key.id}`;
+  const decision = await keyServicesFor(ctx.database, ctx.logger).spends.spend({
     keyId: key.id,
     organisationId: caller.organisationId,
     userId: caller.userId,
@@ -188,31 +228,45 @@ async function spend(ctx: AppContext, endpoint: string, units: number, req: Requ
     day,
     units,
     quota: key.dailyQuota,
+    burst: { row: `burst:${burstKey}`, windowMs: BURST_WINDOW_MS },
   });
+  const burst = decision.burst!;
+  const burstResetS = Math.max(0, Math.ceil((burst.resetAt.getTime() - Date.now()) / 1000));
+  res.append('RateLimit', `"burst"; r=${Math.max(0, burst.limit - burst.totalHits)}; t=${burstResetS}`);
+  res.append('RateLimit-Policy', `"burst"; q=${burst.limit}; w=${BURST_WINDOW_MS / 1000}; pk=:${partitionKey(burstKey)}:`);
+  if (burst.totalHits > burst.limit) {
+    const waitS = Math.max(1, burstResetS);
+    throw new ApiError('tooManyRequests', `More than ${burst.limit} requests in a minute; wait ${waitS} s (Retry-After) or spread the calls out.`, {
+      headers: { 'Retry-After': String(waitS) },
+    });
+  }
+  const result = decision.spend;
+  const quota = result.quota;
   const resetS = secondsUntilUtcMidnight(now);
-  const remaining = Math.max(0, key.dailyQuota - result.used);
-  res.append('RateLimit-Policy', `"daily"; q=${key.dailyQuota}; w=${SECONDS_PER_DAY}`);
+  const remaining = Math.max(0, quota - result.used);
+  res.append('RateLimit-Policy', `"daily"; q=${quota}; w=${SECONDS_PER_DAY}`);
   res.append('RateLimit', `"daily"; r=${remaining}; t=${resetS}`);
   if (!result.admitted) {
     const need = units > 1 ? ` This request needs ${units} units and ${remaining} remain.` : '';
     throw new ApiError(
       'tooManyRequests',
-      `Key ${key.displayStart}… has spent its ${key.dailyQuota} calculation units for ${day} (UTC).${need} ` +
+      `Key ${key.displayStart}… has spent its ${quota} calculation units for ${day} (UTC).${need} ` +
         `The quota starts again at 00:00 UTC, in ${resetS} s; an admin can raise it.`,
       { headers: { 'Retry-After': String(resetS) } },
     );
   }
-  sendQuotaWarnings(ctx, { key, day, used: result.used, warned80: result.warned80, warned100: result.warned100 });
+  sendQuotaWarnings(ctx, { key: { ...key, dailyQuota: quota }, day, used: result.used, warned80: result.warned80, warned100: result.warned100 });
 }
 
 /**
- * Admits a calculation or refuses it before any work: first the per-minute burst limit
- * (express-rate-limit, store in PostgreSQL), then the key's daily quota, spent atomically.
- * `units` is how many calculation units the request costs (default 1; a batch passes its item count);
- * a request whose units do not fit is refused whole with 429.
+ * Admits a calculation or refuses it before any work: first the per-minute burst limit, then the
+ * key's daily quota, spent atomically. `units` is how many calculation units the request costs
+ * (default 1; a batch passes its item count); a request whose units do not fit is refused whole with 429.
  *
- * Console (session) calls are recorded as the member's own usage (key null) and limited by the
- * organisation's per-minute burst limit; they spend no key quota.
+ * Key calls are decided by group commit (see KeySpendQueue): burst hit, spend and usage row in one
+ * statement shared by all requests of the key waiting at that moment. Console (session) calls go
+ * through express-rate-limit (store in PostgreSQL) with the organisation's per-minute burst limit and
+ * are recorded as the member's own usage (key null); they spend no key quota.
  *
  * Units are spent when the request is admitted, before the route validates its body: a request that
  * then fails validation has still cost its units (as with any per-request rate limit). Burst refusals
@@ -221,8 +275,13 @@ async function spend(ctx: AppContext, endpoint: string, units: number, req: Requ
 export function meterCalculation(ctx: AppContext, endpoint: string, units?: (req: Request, res: Response) => number): RequestHandler {
   const burst = burstLimiter(ctx);
   return (req: Request, res: Response, next: NextFunction) => {
-    if (!res.locals.caller || !res.locals.callerLimits) {
+    const caller = res.locals.caller;
+    if (!caller || !res.locals.callerLimits) {
       next(new Error('meterCalculation must run after requireCaller'));
+      return;
+    }
+    if (caller.kind === 'key' && res.locals.callerLimits.key) {
+      meterKey(ctx, endpoint, unitsOf(units, req, res), res).then(() => next(), next);
       return;
     }
     void burst(req, res, (err?: unknown) => {
@@ -230,7 +289,7 @@ export function meterCalculation(ctx: AppContext, endpoint: string, units?: (req
         next(err);
         return;
       }
-      spend(ctx, endpoint, unitsOf(units, req, res), req, res).then(() => next(), next);
+      meterSession(ctx, endpoint, unitsOf(units, req, res), res).then(() => next(), next);
     });
   };
 }

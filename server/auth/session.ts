@@ -34,7 +34,7 @@ export function sessionMiddleware(ctx: AppContext): RequestHandler {
     createTableIfMissing: false,
     errorLog: (...args: unknown[]) => ctx.logger.warn({ detail: args.map(String).join(' ') }, 'session store'),
   });
-  return session({
+  const withSession = session({
     name: SESSION_COOKIE,
     secret: ctx.config.sessionSecret,
     store,
@@ -48,7 +48,20 @@ export function sessionMiddleware(ctx: AppContext): RequestHandler {
       path: '/',
     },
   });
+  // A key call without cookies uses no session (the Bearer header wins, console-only routes refuse
+  // keys), so it skips the session machinery: no session object, no end-of-response hooks. Sign-in
+  // (POST /session, relative to the /api/v1 mount) creates one whatever headers come with it.
+  return (req, res, next) => {
+    if (req.headers.cookie === undefined && BEARER.test(req.headers.authorization ?? '') && !SIGN_IN_PATH.test(req.path)) {
+      next();
+      return;
+    }
+    withSession(req, res, next);
+  };
 }
+
+const BEARER = /^Bearer /i;
+const SIGN_IN_PATH = /^\/session\/?$/i;
 
 /** Starts a session for `userId` under a NEW id (no session fixation) and returns its CSRF token. */
 export async function startSession(req: Request, userId: string): Promise<string> {

@@ -13,6 +13,8 @@ export interface VerifiedKey {
   role: 'admin' | 'developer';
   dailyQuota: number;
   burstPerMinute: number;
+  /** Kept so that a cached verification stops working the moment the key expires. */
+  expiresAt: Date | null;
 }
 
 /** The closed set of outcomes; callers only ever learn "valid" or "not valid". */
@@ -23,6 +25,11 @@ export type KeyVerification =
 /** Checks a presented key: format first (no lookup for junk), then one indexed lookup by hash. */
 export async function verifyApiKey(db: Db, presented: string, now: Date): Promise<KeyVerification> {
   if (!looksLikeApiKey(presented)) return { outcome: 'malformed' };
+  return verifyApiKeyHash(db, hashApiKey(presented), now);
+}
+
+/** The lookup part of verifyApiKey, for callers that already hashed a well-formed key. */
+export async function verifyApiKeyHash(db: Db, keyHash: string, now: Date): Promise<KeyVerification> {
   const rows = await db
     .select({
       keyId: apiKeys.id,
@@ -42,7 +49,7 @@ export async function verifyApiKey(db: Db, presented: string, now: Date): Promis
     .from(apiKeys)
     .innerJoin(users, eq(users.id, apiKeys.userId))
     .innerJoin(organisations, eq(organisations.id, apiKeys.organisationId))
-    .where(eq(apiKeys.keyHash, hashApiKey(presented)));
+    .where(eq(apiKeys.keyHash, keyHash));
   const row = rows[0];
   // A key whose owner moved to another organisation is treated as unknown, never as the other organisation's.
   if (!row || row.ownerOrganisationId !== row.organisationId) return { outcome: 'unknown' };
@@ -61,6 +68,7 @@ export async function verifyApiKey(db: Db, presented: string, now: Date): Promis
       role: row.role,
       dailyQuota: row.dailyQuota,
       burstPerMinute: row.burstPerMinute,
+      expiresAt: row.expiresAt,
     },
   };
 }

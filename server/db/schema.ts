@@ -74,6 +74,11 @@ export const apiKeys = pgTable(
     createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
     /** When the key was created. */
     createdAt: timestamp('created_at', { withTimezone: true }).notNull().defaultNow(),
+    /**
+     * Latest request the key authenticated, as written by the servers' periodic usage flush (about once
+     * a second), not per request; null when it has never been used. A crash loses at most the last flush.
+     */
+    lastUsedAt: timestamp('last_used_at', { withTimezone: true }),
   },
   (t) => [
     uniqueIndex('api_keys_hash_unique').on(t.keyHash),

@@ -9,38 +9,83 @@ export interface KeySpend {
   endpoint: string;
   day: string;
   units: number;
+  /** The quota the caller believes in; the database's current `daily_quota` is what is applied. */
   quota: number;
 }
 
 export type KeySpendResult =
-  | { admitted: true; used: number; warned80: boolean; warned100: boolean }
-  | { admitted: false; used: number };
+  | { admitted: true; used: number; quota: number; warned80: boolean; warned100: boolean }
+  | { admitted: false; used: number; quota: number };
+
+/** Metered requests of one key and UTC day, in arrival order, to be decided by one statement. */
+export interface KeySpendGroup {
+  keyId: string;
+  organisationId: string;
+  userId: string;
+  day: string;
+  requests: { units: number; endpoint: string }[];
+  /** Counts the requests as hits of this per-minute window row first (`burst:key:<id>`); omitted: no burst counting. */
+  burst?: { row: string; windowMs: number };
+}
+
+/** The burst window after a group: the n-th request of the group saw `hits - group size + n`. */
+export interface GroupBurst {
+  hits: number;
+  limit: number;
+  resetAt: Date;
+}
 
 /**
- * Spends `units` of a key's daily quota and records the usage, in ONE statement: the conditional
- * upsert only writes when `used + units <= quota`, and the usage row is written from its result.
- * N parallel calls against M remaining units therefore admit exactly M, across processes.
+ * Decides a whole group of metered requests in ONE statement (`gammaline_meter_key`, see drizzle/0004):
+ * optionally counted against the key's per-minute window, then, under the day row's lock, each request
+ * within the burst limit is granted in arrival order when its units still fit; the total is added to
+ * the day and the granted units to usage_daily. The day's total never exceeds the key's current quota,
+ * whatever the number of processes; results come back in the order of `g.requests`.
  */
+export async function meterKeyGroup(db: Db, g: KeySpendGroup): Promise<{ results: KeySpendResult[]; burst?: GroupBurst }> {
+  const units = g.requests.map((r) => r.units);
+  const endpoints = g.requests.map((r) => r.endpoint);
+  const result = await db.execute<{
+    granted: boolean[];
+    used: number;
+    quota: number;
+    warned80: boolean;
+    warned100: boolean;
+    hits: number | null;
+    burst_limit: number;
+    reset_at: Date | string | null;
+  }>(sql`
+    select granted, used, quota, warned80, warned100, hits, burst_limit, reset_at
+    from gammaline_meter_key(${g.keyId}::uuid, ${g.organisationId}::uuid, ${g.userId}::uuid, ${g.day}::date,
+      ${sql.param(units)}::int[], ${sql.param(endpoints)}::text[], ${g.burst?.row ?? null}::text, ${g.burst?.windowMs ?? 0}::int)`);
+  const row = result.rows[0]!;
+  const used = Number(row.used);
+  const quota = Number(row.quota);
+  const results = row.granted.map((ok): KeySpendResult => (ok ? { admitted: true, used, quota, warned80: row.warned80, warned100: row.warned100 } : { admitted: false, used, quota }));
+  const burst = row.hits === null || row.reset_at === null ? undefined : { hits: Number(row.hits), limit: Number(row.burst_limit), resetAt: new Date(row.reset_at) };
+  return { results, burst };
+}
+
+/** Quota spends of one key without burst counting, decided together (see meterKeyGroup). */
+export async function spendKeyUnitsGroup(db: Db, g: Omit<KeySpendGroup, 'burst'>): Promise<KeySpendResult[]> {
+  return (await meterKeyGroup(db, g)).results;
+}
+
+/** One spend on its own (NDJSON blocks): the group statement with a group of one. */
 export async function spendKeyUnits(db: Db, s: KeySpend): Promise<KeySpendResult> {
-  const result = await db.execute<{ used: number; warned80: boolean; warned100: boolean }>(sql`
-    with spent as (
-      insert into key_quota_days as q (key_id, day, used)
-      select ${s.keyId}::uuid, ${s.day}::date, ${s.units}::int
-      where ${s.units}::int <= ${s.quota}::int
-      on conflict (key_id, day) do update set used = q.used + excluded.used
-      where q.used + excluded.used <= ${s.quota}::int
-      returning q.used, q.warned_80_at is not null as warned80, q.warned_100_at is not null as warned100
-    ), recorded as (
-      insert into usage_daily as u (organisation_id, user_id, key_id, endpoint, day, units, requests)
-      select ${s.organisationId}::uuid, ${s.userId}::uuid, ${s.keyId}::uuid, ${s.endpoint}, ${s.day}::date, ${s.units}::int, 1
-      from spent
-      on conflict (key_id, endpoint, day) where key_id is not null
-      do update set units = u.units + excluded.units, requests = u.requests + 1
-    )
-    select used, warned80, warned100 from spent`);
-  const row = result.rows[0];
-  if (row) return { admitted: true, used: Number(row.used), warned80: row.warned80, warned100: row.warned100 };
-  return { admitted: false, used: await unitsUsed(db, s.keyId, s.day) };
+  const [result] = await spendKeyUnitsGroup(db, { keyId: s.keyId, organisationId: s.organisationId, userId: s.userId, day: s.day, requests: [{ units: s.units, endpoint: s.endpoint }] });
+  return result!;
+}
+
+/** Records when keys were last used: one statement for many keys, never moving a time backwards. */
+export async function recordKeysLastUsed(db: Db, seen: Map<string, Date>): Promise<void> {
+  if (seen.size === 0) return;
+  const ids = [...seen.keys()];
+  const times = ids.map((id) => seen.get(id)!.toISOString());
+  await db.execute(sql`
+    update api_keys k set last_used_at = greatest(k.last_used_at, v.at)
+    from unnest(${sql.param(ids)}::uuid[], ${sql.param(times)}::timestamptz[]) as v(id, at)
+    where k.id = v.id`);
 }
 
 /** Units a key has spent on a day (0 when it has not been used). */

@@ -34,7 +34,7 @@ describe('issuing a key', () => {
     const secret = res.body.secret as string;
     expect(secret).toMatch(KEY_FORMAT);
     expect(Buffer.from(secret.slice(4), 'base64url')).toHaveLength(32);
-    expect(res.body.key).toMatchObject({ name: 'Shack logger', note: 'ridge hut laptop', displayStart: secret.slice(0, 10), state: 'active', usedToday: 0 });
+    expect(res.body.key).toMatchObject({ name: 'Shack logger', note: 'ridge hut laptop', displayStart: secret.slice(0, 10), state: 'active', usedToday: 0, lastUsedAt: null });
     expect(res.body.key.owner.id).toBe(ctx.seed.developerId);
 
     const [row] = await ctx.database.db.select().from(apiKeys).where(eq(apiKeys.id, res.body.key.id));

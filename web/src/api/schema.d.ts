@@ -4975,6 +4975,11 @@ export interface components {
              * @description Member who created the key; null when created with the CLI.
              */
             createdById: string | null;
+            /**
+             * @description ISO 8601 instant of the latest request made with the key; null: never used. Servers record it about once a second, so it can lag by that much.
+             * @example 2026-03-14T17:59:58.000Z
+             */
+            lastUsedAt: string | null;
         };
         /** @description A member, as shown next to things they own. */
         MemberRef: {
@@ -5086,6 +5091,23 @@ export interface components {
                 units: number;
                 /** @example 400 */
                 requests: number;
+            }[];
+            /** @description Units per day for each endpoint; `units[i]` belongs to `days[i]`. */
+            dailyByEndpoint: {
+                /** @example line */
+                endpoint: string;
+                units: number[];
+            }[];
+            /** @description Units per day for each key (and each member's console calls); `units[i]` belongs to `days[i]`. */
+            dailyByKey: {
+                /**
+                 * Format: uuid
+                 * @description null: console calls of `userId`.
+                 */
+                keyId: string | null;
+                /** Format: uuid */
+                userId: string;
+                units: number[];
             }[];
         };
         MemberList: {

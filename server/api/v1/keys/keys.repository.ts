@@ -53,6 +53,7 @@ export function toApiKeyView(row: KeyRow, now: Date): ApiKeyView {
     revokedAt: row.revokedAt?.toISOString() ?? null,
     createdAt: row.createdAt.toISOString(),
     createdById: row.createdBy,
+    lastUsedAt: row.lastUsedAt?.toISOString() ?? null,
   };
 }
 

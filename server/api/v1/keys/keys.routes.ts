@@ -6,6 +6,7 @@ import { ApiError } from '../../../http/problem.ts';
 import { validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
 import { problemResponses, registry } from '../../../openapi/registry.ts';
 import { utcDay } from '../../../quota/day.ts';
+import { keyServicesFor } from '../../../auth/key-services.ts';
 import { memberActor } from '../members/members.repository.ts';
 import { findKey, listKeys } from './keys.repository.ts';
 import {
@@ -172,6 +173,8 @@ export function keysRouter(ctx: AppContext): Router {
       },
       ctx.clock.now(),
     );
+    // The database trigger announces the change to every process; this one forgets the key at once.
+    keyServicesFor(ctx.database, ctx.logger).cache.forget(`key:${id}`);
     res.json(key);
   });
 
@@ -183,6 +186,7 @@ export function keysRouter(ctx: AppContext): Router {
       { organisationId: caller.organisationId, keyId: id, ownerId: caller.role === 'admin' ? undefined : caller.userId, actor: await memberActor(ctx.database.db, caller) },
       ctx.clock.now(),
     );
+    keyServicesFor(ctx.database, ctx.logger).cache.forget(`key:${id}`);
     res.json(key);
   });
 

@@ -25,6 +25,13 @@ export const ApiKeySchema = z
     revokedAt: z.string().nullable().openapi({ example: null }),
     createdAt: z.string().openapi({ example: '2026-03-14T09:30:00.000Z' }),
     createdById: z.uuid().nullable().openapi({ description: 'Member who created the key; null when created with the CLI.' }),
+    lastUsedAt: z
+      .string()
+      .nullable()
+      .openapi({
+        description: 'ISO 8601 instant of the latest request made with the key; null: never used. Servers record it about once a second, so it can lag by that much.',
+        example: '2026-03-14T17:59:58.000Z',
+      }),
   })
   .openapi('ApiKey', { description: 'An API key without its secret.' });
 

@@ -1,5 +1,6 @@
 import { Router } from 'express';
 import type { AppContext } from '../../../context.ts';
+import { keyServicesFor } from '../../../auth/key-services.ts';
 import { callerOf, requireAdmin, requireSession } from '../../../auth/caller.ts';
 import { authProblems, sessionOnly } from '../../../auth/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
@@ -69,6 +70,8 @@ export function membersRouter(ctx: AppContext): Router {
         if (changes.disabled) await endMemberSessions(tx, id);
       }
     });
+    // The database trigger announces the change to every process; this one forgets the member's keys at once.
+    keyServicesFor(ctx.database, ctx.logger).cache.forget(`user:${id}`);
     res.json(await findMember(ctx.database.db, scope));
   });
 

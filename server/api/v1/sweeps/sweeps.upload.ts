@@ -7,6 +7,8 @@ import { ApiError } from '../../../http/problem.ts';
 /** Largest sweep file accepted: a 100,000-point Touchstone file is about 5 MB. */
 export const MAX_SWEEP_FILE_BYTES = 8 * 1024 * 1024;
 const MAX_FIELD_BYTES = 256 * 1024;
+/** Largest multipart body accepted: the file plus room for the option fields and part headers. */
+export const MAX_SWEEP_UPLOAD_BYTES = MAX_SWEEP_FILE_BYTES + 1024 * 1024;
 
 const upload = multer({
   storage: multer.memoryStorage(),

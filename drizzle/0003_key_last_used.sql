@@ -1,0 +1,1 @@
+ALTER TABLE "api_keys" ADD COLUMN "last_used_at" timestamp with time zone;

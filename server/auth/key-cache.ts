@@ -1,0 +1,69 @@
+import type { VerifiedKey } from './verify-key.ts';
+
+/** A valid verification is reused for at most this long, even if no change is ever announced. */
+export const KEY_CACHE_TTL_MS = 10_000;
+/** Entries kept at most; the oldest go first. */
+const MAX_ENTRIES = 10_000;
+
+interface Entry {
+  key: VerifiedKey;
+  storedAtMs: number;
+}
+
+/**
+ * Valid key verifications by key hash, reused for a short time. Only valid outcomes are kept (a
+ * refused key is looked up again every time). Entries are dropped when their key or owner changes
+ * (`forget*`, driven by NOTIFY and by the local change routes) and all at once when announcements may
+ * have been missed (`clear`). A fill that raced with a change is discarded: `generation` moves on every
+ * forget/clear, and `put` only stores what was read under the generation it started with.
+ */
+export class VerifiedKeyCache {
+  private readonly entries = new Map<string, Entry>();
+  private _generation = 0;
+
+  get generation(): number {
+    return this._generation;
+  }
+
+  get size(): number {
+    return this.entries.size;
+  }
+
+  /** The cached verification, if fresh and the key has not expired at `now`. */
+  get(hash: string, now: Date): VerifiedKey | undefined {
+    const entry = this.entries.get(hash);
+    if (!entry) return undefined;
+    if (Date.now() - entry.storedAtMs > KEY_CACHE_TTL_MS || (entry.key.expiresAt && entry.key.expiresAt <= now)) {
+      this.entries.delete(hash);
+      return undefined;
+    }
+    return entry.key;
+  }
+
+  put(hash: string, key: VerifiedKey, generation: number): void {
+    if (generation !== this._generation) return;
+    if (this.entries.size >= MAX_ENTRIES) {
+      const oldest = this.entries.keys().next().value;
+      if (oldest !== undefined) this.entries.delete(oldest);
+    }
+    this.entries.set(hash, { key, storedAtMs: Date.now() });
+  }
+
+  /** Applies a `key:<id>` or `user:<id>` announcement; anything else empties the cache. */
+  forget(payload: string): void {
+    this._generation++;
+    const [kind, id] = payload.split(':', 2);
+    if (kind !== 'key' && kind !== 'user') {
+      this.entries.clear();
+      return;
+    }
+    for (const [hash, entry] of this.entries) {
+      if ((kind === 'key' && entry.key.keyId === id) || (kind === 'user' && entry.key.userId === id)) this.entries.delete(hash);
+    }
+  }
+
+  clear(): void {
+    this._generation++;
+    this.entries.clear();
+  }
+}
