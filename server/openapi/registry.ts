@@ -26,3 +26,6 @@ export const calculationProblems = {
   ...problemResponses.tooLarge,
   ...problemResponses.unprocessable,
 };
+
+/** `{ content: { 'application/json': { schema } } }`, spread into a request body or a response. */
+export const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });

@@ -16,12 +16,11 @@ import { callerOf, calculationGuard, requireAdmin, requireCaller, requireSession
 import { authProblems, keyOrSession, meteredProblems, rateLimitHeaders, sessionOnly } from '../../../auth/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
 import { validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
-import { calculationProblems, problemResponses, registry } from '../../../openapi/registry.ts';
+import { calculationProblems, problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { assertFinite } from '../calc/operations.ts';
 import { deleteAccountCable, feedlinesUsingCable, findAccountCables, insertAccountCable, listAccountCables, updateAccountCable } from './cables.repository.ts';
 
 const tags = ['Cables'];
-const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
 
 type Entry = z.input<typeof CableEntrySchema>;
 const catalogEntry = (c: CableType): Entry => ({ ...c, origin: 'catalog' });

@@ -20,14 +20,13 @@ import { callerOf, calculationGuard, requireCaller } from '../../../auth/caller.
 import { authProblems, keyOrSession, meteredProblems, rateLimitHeaders } from '../../../auth/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
 import { validateBody, validateParams } from '../../../http/validate.ts';
-import { calculationProblems, problemResponses, registry } from '../../../openapi/registry.ts';
+import { calculationProblems, problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { assertFinite } from '../calc/operations.ts';
 import { calculationEnvFor, cableIdsIn } from '../cables/cables.env.ts';
 import { deleteFeedline, findFeedline, insertFeedline, listFeedlines, updateFeedline, type FeedlineRecord } from './feedlines.repository.ts';
 import { assertCablesKnown, feedlineLengthM, sectionMatchedLossDb, sectionModels } from './feedlines.service.ts';
 
 const tags = ['Feed lines'];
-const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
 const params = { params: FeedlineIdParamsSchema };
 
 function view(f: FeedlineRecord): z.input<typeof FeedlineSchema> {

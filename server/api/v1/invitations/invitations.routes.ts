@@ -9,7 +9,7 @@ import { generateToken, hashToken, looksLikeToken } from '../../../auth/tokens.t
 import { ApiError } from '../../../http/problem.ts';
 import { validateBody, validateParams } from '../../../http/validate.ts';
 import { invitationMail } from '../../../mail/messages.ts';
-import { problemResponses, registry } from '../../../openapi/registry.ts';
+import { problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { z } from '../../../zod.ts';
 import { recordAudit } from '../audit/audit.repository.ts';
 import { memberActor, toMemberView } from '../members/members.repository.ts';
@@ -45,7 +45,6 @@ const AcceptInvitationSchema = z
   .openapi('AcceptInvitation');
 
 const IdParams = z.object({ id: z.uuid({ message: 'invitation ids are UUIDs, as listed by GET /api/v1/invitations' }) });
-const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
 const tags = ['Invitations'];
 
 registry.registerPath({

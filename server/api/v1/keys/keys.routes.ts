@@ -4,7 +4,7 @@ import { callerOf, requireSession } from '../../../auth/caller.ts';
 import { authProblems, sessionOnly } from '../../../auth/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
 import { validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
-import { problemResponses, registry } from '../../../openapi/registry.ts';
+import { problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { utcDay } from '../../../quota/day.ts';
 import { keyServicesFor } from '../../../auth/key-services.ts';
 import { memberActor } from '../members/members.repository.ts';
@@ -23,7 +23,6 @@ import {
 import { createKey, revokeKey, updateKey } from './keys.service.ts';
 
 const tags = ['Keys'];
-const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
 
 registry.registerPath({
   method: 'get',

@@ -5,13 +5,12 @@ import { callerOf, requireAdmin, requireSession } from '../../../auth/caller.ts'
 import { authProblems, sessionOnly } from '../../../auth/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
 import { validateBody, validateParams } from '../../../http/validate.ts';
-import { problemResponses, registry } from '../../../openapi/registry.ts';
+import { problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { recordAudit } from '../audit/audit.repository.ts';
 import { endMemberSessions, findMember, listMembers, lockMember, memberActor, updateMemberFields } from './members.repository.ts';
 import { MemberIdParamsSchema, MemberListSchema, MemberSchema, UpdateMemberSchema, type UpdateMember } from './members.schemas.ts';
 
 const tags = ['Members'];
-const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
 
 registry.registerPath({
   method: 'get',

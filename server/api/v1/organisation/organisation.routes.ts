@@ -5,7 +5,7 @@ import { organisations } from '../../../db/schema.ts';
 import { callerOf, requireAdmin, requireCaller, requireSession } from '../../../auth/caller.ts';
 import { authProblems, keyOrSession, sessionOnly } from '../../../auth/openapi.ts';
 import { validateBody } from '../../../http/validate.ts';
-import { problemResponses, registry } from '../../../openapi/registry.ts';
+import { problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { z } from '../../../zod.ts';
 import { recordAudit } from '../audit/audit.repository.ts';
 import { memberActor } from '../members/members.repository.ts';
@@ -28,7 +28,6 @@ const UpdateOrganisationSchema = z
   .refine((v) => Object.keys(v).length > 0, { message: 'send defaultDailyQuota, defaultBurstPerMinute or both' })
   .openapi('UpdateOrganisation', { description: 'New defaults apply to keys issued afterwards; existing keys keep their limits.' });
 
-const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
 
 registry.registerPath({
   method: 'get',

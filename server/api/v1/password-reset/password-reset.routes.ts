@@ -9,7 +9,7 @@ import { generateToken, hashToken, looksLikeToken } from '../../../auth/tokens.t
 import { ApiError } from '../../../http/problem.ts';
 import { validateBody } from '../../../http/validate.ts';
 import { passwordResetMail } from '../../../mail/messages.ts';
-import { problemResponses, registry } from '../../../openapi/registry.ts';
+import { problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { z } from '../../../zod.ts';
 import { endMemberSessions } from '../members/members.repository.ts';
 
@@ -29,7 +29,6 @@ const ConfirmResetSchema = z
 
 const AcceptedSchema = z.object({ message: z.string().openapi({ example: 'If the address belongs to an active member, a link is on its way; it works for one hour.' }) }).openapi('ResetRequested');
 
-const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
 const tags = ['Session'];
 
 registry.registerPath({

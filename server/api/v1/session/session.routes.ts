@@ -9,7 +9,7 @@ import { endSession, startSession } from '../../../auth/session.ts';
 import { signInThrottleByAccount, signInThrottleByAddress } from '../../../auth/throttle.ts';
 import { ApiError, ProblemSchema } from '../../../http/problem.ts';
 import { validateBody } from '../../../http/validate.ts';
-import { problemResponses, registry } from '../../../openapi/registry.ts';
+import { problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { z } from '../../../zod.ts';
 import { findMember } from '../members/members.repository.ts';
 import { MemberSchema } from '../members/members.schemas.ts';
@@ -29,7 +29,6 @@ const SessionSchema = z
   })
   .openapi('Session');
 
-const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
 const tags = ['Session'];
 
 registry.registerPath({

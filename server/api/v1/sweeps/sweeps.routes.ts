@@ -17,7 +17,7 @@ import { authProblems, keyOrSession, meteredProblems } from '../../../auth/opena
 import { ApiError } from '../../../http/problem.ts';
 import { validateParams } from '../../../http/validate.ts';
 import { apiErrorFromZod } from '../../../http/zod-issues.ts';
-import { problemResponses, registry } from '../../../openapi/registry.ts';
+import { problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { cableIdsIn, calculationEnvFor } from '../cables/cables.env.ts';
 import { findFeedline } from '../feedlines/feedlines.repository.ts';
 import { deleteSweep, findSweep, insertSweep, listSweeps, type SweepHeader, type SweepRecord } from './sweeps.repository.ts';
@@ -26,7 +26,6 @@ import { unpackPoints, packPoints } from './sweeps.points.ts';
 import { MAX_SWEEP_FILE_BYTES, SweepFormFieldsSchema, sweepUpload } from './sweeps.upload.ts';
 
 const tags = ['Sweeps'];
-const json = <T>(schema: T) => ({ content: { 'application/json': { schema } } });
 
 /**
  * zod reports a value that fits no branch of a union as one "Invalid input"; when only one branch
