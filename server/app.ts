@@ -1,10 +1,7 @@
-import { randomUUID } from 'node:crypto';
 import { existsSync } from 'node:fs';
 import path from 'node:path';
 import express, { type Express } from 'express';
-import helmet from 'helmet';
 import { pino, type Logger } from 'pino';
-import { pinoHttp } from 'pino-http';
 import swaggerUi from 'swagger-ui-express';
 import type { AppConfig } from './config.ts';
 import { systemClock, type AppContext, type Clock } from './context.ts';
@@ -13,6 +10,8 @@ import { healthRouter } from './api/health.routes.ts';
 import { v1Router } from './api/v1/router.ts';
 import { byteSize, refuseOversizedBodies } from './http/body-size.ts';
 import { notFoundHandler, problemErrorHandler } from './http/error-middleware.ts';
+import { requestLog } from './http/request-log.ts';
+import { securityHeaders } from './http/security-headers.ts';
 import { BATCH_JSON_LIMIT } from './api/v1/batch/batch.routes.ts';
 import { NDJSON_TYPE } from './api/v1/batch/batch.ndjson.ts';
 import { MAX_SWEEP_UPLOAD_BYTES } from './api/v1/sweeps/sweeps.upload.ts';
@@ -29,7 +28,6 @@ export interface AppDependencies {
   mailer?: Mailer;
 }
 
-const REQUEST_ID_PATTERN = /^[A-Za-z0-9._-]{1,64}$/;
 /** Routes that parse their own body (see server/api/v1/batch). */
 const OWN_BODY_PATH = /^\/api\/v1\/batch\/?$/i;
 /** The one route that takes multipart uploads (see server/api/v1/sweeps). */
@@ -50,24 +48,11 @@ export function createApp(deps: AppDependencies): Express {
   // Behind a reverse proxy, client addresses (sign-in throttling) and https (Secure cookies) come from its headers.
   if (deps.config.trustProxy > 0) app.set('trust proxy', deps.config.trustProxy);
 
-  app.use(
-    pinoHttp({
-      logger,
-      // A caller's own id is echoed when it is safe to log; otherwise we mint one.
-      genReqId: (req, res) => {
-        const incoming = req.headers['x-request-id'];
-        const id = typeof incoming === 'string' && REQUEST_ID_PATTERN.test(incoming) ? incoming : randomUUID();
-        res.setHeader('X-Request-Id', id);
-        return id;
-      },
-      // Credentials never reach the log: the key, the session cookie, and the session's CSRF token.
-      redact: ['req.headers.authorization', 'req.headers.cookie', 'req.headers["x-csrf-token"]', 'req.headers["proxy-authorization"]', 'res.headers["set-cookie"]'],
-    }),
-  );
+  app.use(requestLog(app, logger));
   // Local mode is plain HTTP on loopback (or a LAN address): forcing HTTPS there would break the console.
   const local = deps.config.mode === 'local';
   app.use(
-    helmet({
+    securityHeaders({
       strictTransportSecurity: !local,
       contentSecurityPolicy: { directives: { upgradeInsecureRequests: local ? null : [] } },
     }),

@@ -9,6 +9,7 @@ import { SECONDS_PER_DAY, secondsUntilUtcMidnight, utcDay } from '../quota/day.t
 import { PgRateLimitStore } from '../quota/pg-rate-limit-store.ts';
 import { recordConsoleUsage } from '../quota/quota.repository.ts';
 import { sendQuotaWarnings } from '../quota/warnings.ts';
+import type { MeterDecision } from '../quota/key-leases.ts';
 import { hashApiKey, looksLikeApiKey } from './api-key.ts';
 import { keyServicesFor } from './key-services.ts';
 import { csrfSatisfied } from './session.ts';
@@ -204,49 +205,68 @@ async function meterSession(ctx: AppContext, endpoint: string, units: number, re
   await recordConsoleUsage(ctx.database.db, { organisationId: caller.organisationId, userId: caller.userId, endpoint, day: utcDay(ctx.clock.now()), units });
 }
 
-/** express-rate-limit's draft-8 partition key, so key and console answers carry the same header shape. */
+const partitionKeys = new Map<string, string>();
+
+/** express-rate-limit's draft-8 partition key, so key and console answers carry the same header shape (memoised: a hash per request adds up). */
 function partitionKey(key: string): string {
-  return Buffer.from(createHash('sha256').update(key).digest('hex').slice(0, 12)).toString('base64');
+  let pk = partitionKeys.get(key);
+  if (pk === undefined) {
+    if (partitionKeys.size >= 10_000) partitionKeys.clear();
+    pk = Buffer.from(createHash('sha256').update(key).digest('hex').slice(0, 12)).toString('base64');
+    partitionKeys.set(key, pk);
+  }
+  return pk;
 }
 
 /**
- * Key calls: burst hit and quota spend decided together by the key's group-commit queue (one statement
- * for all requests of the key waiting at that moment). The limits applied are the database's current
- * ones; the answer carries the same `"burst"` and `"daily"` header items as before.
+ * Key calls: burst hit and quota units come from the key's lease in this process (KeyLeases), so most
+ * calls are decided without a database round trip; the answer carries the same `"burst"` and `"daily"`
+ * RateLimit items as console calls. Returns a promise only when the call had to wait for a lease.
  */
-async function meterKey(ctx: AppContext, endpoint: string, units: number, res: Response): Promise<void> {
+function meterKey(ctx: AppContext, endpoint: string, units: number, res: Response): void | Promise<void> {
   const caller = res.locals.caller as Caller;
   const key = (res.locals.callerLimits as CallerLimits).key!;
   const now = ctx.clock.now();
   const day = utcDay(now);
   const burstKey = `key:${key.id}`;
-  const decision = await keyServicesFor(ctx.database, ctx.logger).spends.spend({
+  const decided = keyServicesFor(ctx.database, ctx.logger).leases.spend({
     keyId: key.id,
     organisationId: caller.organisationId,
     userId: caller.userId,
     endpoint,
     day,
     units,
-    quota: key.dailyQuota,
     burst: { row: `burst:${burstKey}`, windowMs: BURST_WINDOW_MS },
   });
-  const burst = decision.burst!;
-  const burstResetS = Math.max(0, Math.ceil((burst.resetAt.getTime() - Date.now()) / 1000));
-  res.append('RateLimit', `"burst"; r=${Math.max(0, burst.limit - burst.totalHits)}; t=${burstResetS}`);
-  res.append('RateLimit-Policy', `"burst"; q=${burst.limit}; w=${BURST_WINDOW_MS / 1000}; pk=:${partitionKey(burstKey)}:`);
-  if (burst.totalHits > burst.limit) {
-    const waitS = Math.max(1, burstResetS);
-    throw new ApiError('tooManyRequests', `More than ${burst.limit} requests in a minute; wait ${waitS} s (Retry-After) or spread the calls out.`, {
-      headers: { 'Retry-After': String(waitS) },
-    });
+  const apply = (decision: MeterDecision) => applyKeyDecision(ctx, res, { organisationId: caller.organisationId, key, burstKey, units, now, day }, decision);
+  return decided instanceof Promise ? decided.then(apply) : apply(decided);
+}
+
+function applyKeyDecision(
+  ctx: AppContext,
+  res: Response,
+  c: { organisationId: string; key: NonNullable<CallerLimits['key']>; burstKey: string; units: number; now: Date; day: string },
+  decision: MeterDecision,
+): void {
+  const { key, burstKey, units, now, day } = c;
+  const burst = decision.burst;
+  if (burst) {
+    const burstResetS = Math.max(0, Math.ceil((burst.resetAt.getTime() - Date.now()) / 1000));
+    res.append('RateLimit', `"burst"; r=${Math.max(0, burst.limit - burst.totalHits)}; t=${burstResetS}`);
+    res.append('RateLimit-Policy', `"burst"; q=${burst.limit}; w=${BURST_WINDOW_MS / 1000}; pk=:${partitionKey(burstKey)}:`);
+    if (decision.refusedBy === 'burst') {
+      const waitS = Math.max(1, burstResetS);
+      throw new ApiError('tooManyRequests', `More than ${burst.limit} requests in a minute; wait ${waitS} s (Retry-After) or spread the calls out.`, {
+        headers: { 'Retry-After': String(waitS) },
+      });
+    }
   }
-  const result = decision.spend;
-  const quota = result.quota;
+  const quota = decision.quota;
   const resetS = secondsUntilUtcMidnight(now);
-  const remaining = Math.max(0, quota - result.used);
+  const remaining = Math.max(0, quota - decision.used);
   res.append('RateLimit-Policy', `"daily"; q=${quota}; w=${SECONDS_PER_DAY}`);
   res.append('RateLimit', `"daily"; r=${remaining}; t=${resetS}`);
-  if (!result.admitted) {
+  if (!decision.admitted) {
     const need = units > 1 ? ` This request needs ${units} units and ${remaining} remain.` : '';
     throw new ApiError(
       'tooManyRequests',
@@ -255,7 +275,9 @@ async function meterKey(ctx: AppContext, endpoint: string, units: number, res: R
       { headers: { 'Retry-After': String(resetS) } },
     );
   }
-  sendQuotaWarnings(ctx, { key: { ...key, dailyQuota: quota }, day, used: result.used, warned80: result.warned80, warned100: result.warned100 });
+  if (!(decision.warned80 && decision.warned100)) {
+    sendQuotaWarnings(ctx, { organisationId: c.organisationId, key: { ...key, dailyQuota: quota }, day, used: decision.used, warned80: decision.warned80, warned100: decision.warned100 });
+  }
 }
 
 /**
@@ -263,8 +285,8 @@ async function meterKey(ctx: AppContext, endpoint: string, units: number, res: R
  * key's daily quota, spent atomically. `units` is how many calculation units the request costs
  * (default 1; a batch passes its item count); a request whose units do not fit is refused whole with 429.
  *
- * Key calls are decided by group commit (see KeySpendQueue): burst hit, spend and usage row in one
- * statement shared by all requests of the key waiting at that moment. Console (session) calls go
+ * Key calls are decided by the key's lease in this process (see KeyLeases): units and burst hits are
+ * reserved from the database in blocks, so no process can overspend, and usage rows are flushed in bulk. Console (session) calls go
  * through express-rate-limit (store in PostgreSQL) with the organisation's per-minute burst limit and
  * are recorded as the member's own usage (key null); they spend no key quota.
  *
@@ -281,7 +303,15 @@ export function meterCalculation(ctx: AppContext, endpoint: string, units?: (req
       return;
     }
     if (caller.kind === 'key' && res.locals.callerLimits.key) {
-      meterKey(ctx, endpoint, unitsOf(units, req, res), res).then(() => next(), next);
+      let pending: void | Promise<void>;
+      try {
+        pending = meterKey(ctx, endpoint, unitsOf(units, req, res), res);
+      } catch (err) {
+        next(err);
+        return;
+      }
+      if (pending) pending.then(() => next(), next);
+      else next();
       return;
     }
     void burst(req, res, (err?: unknown) => {

@@ -20,6 +20,8 @@ const RECONNECT_MAX_MS = 5_000;
 export interface KeyChangeHandlers {
   /** A `key:<id>` or `user:<id>` payload arrived. */
   changed(payload: string): void;
+  /** Further channels heard on the same connection (the quota leases' reclaim and return notices). */
+  other?: { channels: string[]; notified(channel: string, payload: string): void };
   /** The connection was (re)established: everything announced while it was down is unknown. */
   connected(): void;
   /** The connection is gone; until `connected`, announcements may be missed. */
@@ -69,11 +71,13 @@ export class KeyChangeListener {
     client.on('error', (err) => this.fail(client, err));
     client.on('end', () => this.fail(client, new Error('connection ended')));
     client.on('notification', (message) => {
-      if (message.channel === KEY_CHANGES_CHANNEL && message.payload) this.handlers.changed(message.payload);
+      if (!message.payload) return;
+      if (message.channel === KEY_CHANGES_CHANNEL) this.handlers.changed(message.payload);
+      else this.handlers.other?.notified(message.channel, message.payload);
     });
     try {
       await client.connect();
-      await client.query(`listen ${KEY_CHANGES_CHANNEL}`);
+      for (const channel of [KEY_CHANGES_CHANNEL, ...(this.handlers.other?.channels ?? [])]) await client.query(`listen ${channel}`);
     } catch (err) {
       this.fail(client, err);
       return;

@@ -2,7 +2,7 @@ import type { Logger } from 'pino';
 import type pg from 'pg';
 import type { Database } from '../db/client.ts';
 import { LastUsedRecorder } from '../quota/last-used.ts';
-import { KeySpendQueue } from '../quota/spend-queue.ts';
+import { KeyLeases, QUOTA_RECLAIM_CHANNEL, QUOTA_RETURNED_CHANNEL } from '../quota/key-leases.ts';
 import { VerifiedKeyCache } from './key-cache.ts';
 import { KeyChangeListener } from './key-changes.ts';
 
@@ -10,7 +10,8 @@ import { KeyChangeListener } from './key-changes.ts';
 export interface KeyServices {
   cache: VerifiedKeyCache;
   listener: KeyChangeListener;
-  spends: KeySpendQueue;
+  /** Quota units reserved in blocks and spent in memory, with buffered usage records. */
+  leases: KeyLeases;
   lastUsed: LastUsedRecorder;
   /** The cache may be trusted only while announcements are known to arrive. */
   cacheUsable(): boolean;
@@ -31,8 +32,14 @@ export function keyServicesFor(database: Database, logger: Logger): KeyServices 
   const existing = services.get(database);
   if (existing) return existing;
   const cache = new VerifiedKeyCache();
+  const leases = new KeyLeases(database.db, logger);
   const listener = new KeyChangeListener({ ...(database.pool.options as pg.ClientConfig), application_name: KEY_LISTENER_APPLICATION }, {
-    changed: (payload) => cache.forget(payload),
+    changed: (payload) => {
+      cache.forget(payload);
+      // A changed key (new quota, revoked) gives its reserved units back, so the change applies at once.
+      if (payload.startsWith('key:')) void leases.giveBackKey(payload.slice(4));
+    },
+    other: { channels: [QUOTA_RECLAIM_CHANNEL, QUOTA_RETURNED_CHANNEL], notified: (channel, payload) => leases.notified(channel, payload) },
     // Anything announced while the connection was down is unknown: start from an empty cache.
     connected: () => cache.clear(),
     lost: () => cache.clear(),
@@ -42,15 +49,17 @@ export function keyServicesFor(database: Database, logger: Logger): KeyServices 
   const created: KeyServices = {
     cache,
     listener,
-    spends: new KeySpendQueue(database.db),
+    leases,
     lastUsed,
     cacheUsable: () => listener.healthy,
-    stop: () => (stopping ??= Promise.all([listener.stop(), lastUsed.stop()]).then(() => {})),
+    // Units go back and usage is written while the listener still hears reclaim requests.
+    stop: () => (stopping ??= leases.stop().catch(() => {}).then(() => Promise.all([listener.stop(), lastUsed.stop()])).then(() => {})),
   };
   services.set(database, created);
   closeWithPool(database.pool, created);
   listener.start();
   lastUsed.start();
+  leases.start();
   return created;
 }
 

@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm';
-import { boolean, customType, date, doublePrecision, index, integer, json, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid, varchar } from 'drizzle-orm/pg-core';
+import { bigint, boolean, customType, date, doublePrecision, index, integer, json, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid, varchar } from 'drizzle-orm/pg-core';
 
 /** What a member may do: admins manage members, invitations, every key and quotas; developers their own keys. */
 export const memberRole = pgEnum('member_role', ['admin', 'developer']);
@@ -97,7 +97,7 @@ export const keyQuotaDays = pgTable(
       .references(() => apiKeys.id, { onDelete: 'cascade' }),
     /** The UTC calendar day the units count against. */
     day: date('day', { mode: 'string' }).notNull(),
-    /** Units spent so far that day; never exceeds the key's daily quota. */
+    /** Units spent or reserved by a server process so far that day; never exceeds the key's daily quota. */
     used: integer('used').notNull().default(0),
     /** When the owner was told the key passed 80 % of its quota that day (set once). */
     warned80At: timestamp('warned_80_at', { withTimezone: true }),
@@ -106,6 +106,38 @@ export const keyQuotaDays = pgTable(
   },
   (t) => [primaryKey({ columns: [t.keyId, t.day] })],
 );
+
+/**
+ * Quota units a server process has reserved for a key and day and not yet reported spent (see
+ * server/quota/key-leases.ts). The reservation is already in key_quota_days.used; this row only tells
+ * other processes whom to ask for unspent units before they refuse a request, and is refreshed at every
+ * lease and usage flush, so a row not touched for a while belongs to a process that has gone.
+ */
+export const quotaLeases = pgTable(
+  'quota_leases',
+  {
+    /** The server process (random per start) holding the units. */
+    instanceId: uuid('instance_id').notNull(),
+    keyId: uuid('key_id')
+      .notNull()
+      .references(() => apiKeys.id, { onDelete: 'cascade' }),
+    day: date('day', { mode: 'string' }).notNull(),
+    /** Units reserved by that process and unspent at its last report (an upper bound). */
+    units: integer('units').notNull().default(0),
+    updatedAt: timestamp('updated_at', { withTimezone: true }).notNull().defaultNow(),
+  },
+  (t) => [primaryKey({ columns: [t.instanceId, t.keyId, t.day] }), index('quota_leases_key_day_idx').on(t.keyId, t.day)],
+);
+
+/**
+ * The last usage flush applied per server process: a flush whose answer was lost is sent again with
+ * the same number and skipped, so buffered usage is counted exactly once.
+ */
+export const usageFlushes = pgTable('usage_flushes', {
+  instanceId: uuid('instance_id').primaryKey(),
+  seq: bigint('seq', { mode: 'number' }).notNull(),
+  updatedAt: timestamp('updated_at', { withTimezone: true }).notNull().defaultNow(),
+});
 
 /** Usage per key (or per member for console calls, key null), per endpoint, per UTC day. */
 export const usageDaily = pgTable(
@@ -238,10 +270,12 @@ export const capturedMail = pgTable(
     textBody: text('text_body').notNull().default(''),
     /** The message as received, headers and all. */
     raw: text('raw').notNull(),
+    /** The organisation the message was sent for (its X-Gammaline-Organisation header); only its admins see it. */
+    organisationId: uuid('organisation_id').references(() => organisations.id, { onDelete: 'cascade' }),
     /** When the local SMTP server accepted the message. */
     receivedAt: timestamp('received_at', { withTimezone: true }).notNull().defaultNow(),
   },
-  (t) => [index('captured_mail_received_idx').on(t.receivedAt)],
+  (t) => [index('captured_mail_received_idx').on(t.receivedAt), index('captured_mail_organisation_idx').on(t.organisationId, t.receivedAt)],
 );
 
 /** Console sessions, in the layout connect-pg-simple expects. */

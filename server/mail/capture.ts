@@ -3,6 +3,9 @@ import type { Logger } from 'pino';
 import { SMTPServer } from 'smtp-server';
 import type { Database } from '../db/client.ts';
 import { capturedMail } from '../db/schema.ts';
+import { ORGANISATION_HEADER } from './mailer.ts';
+
+const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
 
 /** Largest message the capture server accepts; our own messages are a few kilobytes. */
 const MAX_MESSAGE_BYTES = 1024 * 1024;
@@ -35,12 +38,15 @@ export async function startMailCapture(options: { database: Database; logger: Lo
         void (async () => {
           const parsed = await simpleParser(raw);
           const from = session.envelope.mailFrom;
+          const owner = parsed.headers.get(ORGANISATION_HEADER.toLowerCase());
           await database.db.insert(capturedMail).values({
             envelopeFrom: from ? from.address : '',
             envelopeTo: session.envelope.rcptTo.map((r) => r.address),
             subject: parsed.subject ?? '',
             textBody: parsed.text ?? '',
             raw: raw.toString('utf8'),
+            // A message without a (valid) owner is shown to nobody: better hidden than shown to the wrong admins.
+            organisationId: typeof owner === 'string' && UUID.test(owner.trim()) ? owner.trim() : null,
           });
         })().then(
           () => callback(),

@@ -5,7 +5,12 @@ export interface OutgoingMail {
   to: string;
   subject: string;
   text: string;
+  /** The organisation the message is sent for; travels as ORGANISATION_HEADER so local capture can show it to that organisation's admins only. */
+  organisationId?: string;
 }
+
+/** Header naming the organisation a message belongs to (read by the local capture server). */
+export const ORGANISATION_HEADER = 'X-Gammaline-Organisation';
 
 /** Sends the few messages Gammaline writes (invitations, password resets, quota warnings). */
 export interface Mailer {
@@ -25,7 +30,8 @@ export function createMailer(options: { url: string; from: string; logger: Logge
     : nodemailer.createTransport(options.url);
   return {
     async send(mail) {
-      await transport.sendMail({ from: options.from, to: mail.to, subject: mail.subject, text: mail.text });
+      const headers = mail.organisationId ? { [ORGANISATION_HEADER]: mail.organisationId } : undefined;
+      await transport.sendMail({ from: options.from, to: mail.to, subject: mail.subject, text: mail.text, headers });
       options.logger.info({ to: mail.to, subject: mail.subject }, 'mail sent');
     },
     close() {

@@ -2,9 +2,10 @@ import type { OutgoingMail } from './mailer.ts';
 
 /** Wording of every message Gammaline sends; plain text, one place to read and change. */
 
-export function invitationMail(p: { to: string; organisationName: string; invitedBy: string; role: string; link: string; expiresAt: Date }): OutgoingMail {
+export function invitationMail(p: { to: string; organisationId: string; organisationName: string; invitedBy: string; role: string; link: string; expiresAt: Date }): OutgoingMail {
   return {
     to: p.to,
+    organisationId: p.organisationId,
     subject: `You are invited to ${p.organisationName} on Gammaline`,
     text: [
       `${p.invitedBy} invites you to join ${p.organisationName} on Gammaline as ${p.role === 'admin' ? 'an admin' : 'a developer'}.`,
@@ -18,9 +19,10 @@ export function invitationMail(p: { to: string; organisationName: string; invite
   };
 }
 
-export function passwordResetMail(p: { to: string; link: string; expiresAt: Date }): OutgoingMail {
+export function passwordResetMail(p: { to: string; organisationId: string; link: string; expiresAt: Date }): OutgoingMail {
   return {
     to: p.to,
+    organisationId: p.organisationId,
     subject: 'Choose a new Gammaline password',
     text: [
       'Someone (hopefully you) asked to choose a new password for this address on Gammaline.',
@@ -34,10 +36,11 @@ export function passwordResetMail(p: { to: string; link: string; expiresAt: Date
   };
 }
 
-export function quotaWarningMail(p: { to: string; keyName: string; displayStart: string; used: number; quota: number; threshold: 80 | 100; day: string }): OutgoingMail {
+export function quotaWarningMail(p: { to: string; organisationId: string; keyName: string; displayStart: string; used: number; quota: number; threshold: 80 | 100; day: string }): OutgoingMail {
   const reached = p.threshold === 100;
   return {
     to: p.to,
+    organisationId: p.organisationId,
     subject: reached
       ? `Gammaline key "${p.keyName}" has used its whole daily quota`
       : `Gammaline key "${p.keyName}" has used ${p.threshold} % of its daily quota`,

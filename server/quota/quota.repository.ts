@@ -119,3 +119,108 @@ export async function claimQuotaWarning(db: Db, keyId: string, day: string, thre
     .returning({ keyId: keyQuotaDays.keyId });
   return rows.length > 0;
 }
+
+/** What a process asks of `gammaline_lease_key` (drizzle/0005) for one key and day. */
+export interface LeaseAsk {
+  instanceId: string;
+  keyId: string;
+  day: string;
+  /** Units and hits the requests waiting right now need beyond what the process holds. */
+  needUnits: number;
+  needHits: number;
+  /** How many more it would like to hold in advance (granted only while plenty is free). */
+  extraUnits: number;
+  extraHits: number;
+  /** Units the process holds unspent before this lease (recorded in its lease row). */
+  unspent: number;
+  /** The per-minute window row (`burst:key:<id>`); omitted: no burst counting. */
+  burst?: { row: string; windowMs: number };
+}
+
+/** What the database reserved, and the key's state after the reservation. */
+export interface LeaseGrant {
+  units: number;
+  hits: number;
+  /** The day's spent and reserved units, this grant included. */
+  used: number;
+  quota: number;
+  warned80: boolean;
+  warned100: boolean;
+  /** The per-minute window after the grant (hits include every process's reservations). */
+  burst?: { hits: number; limit: number; resetAt: Date };
+  /** Other live processes holding unspent units of this key and day. */
+  holders: number;
+}
+
+/**
+ * Reserves quota units and per-minute hits for one key and day in ONE statement; the day's spent and
+ * reserved total never exceeds the key's current quota whatever the number of processes.
+ */
+export async function leaseKeyUnits(db: Db, a: LeaseAsk): Promise<LeaseGrant> {
+  const result = await db.execute<{
+    granted_units: number;
+    granted_hits: number;
+    used: number;
+    quota: number;
+    warned80: boolean;
+    warned100: boolean;
+    hits: number | null;
+    burst_limit: number;
+    reset_at: Date | string | null;
+    holders: number;
+  }>(sql`
+    select granted_units, granted_hits, used, quota, warned80, warned100, hits, burst_limit, reset_at, holders
+    from gammaline_lease_key(${a.instanceId}::uuid, ${a.keyId}::uuid, ${a.day}::date, ${a.needUnits}::int, ${a.extraUnits}::int,
+      ${a.needHits}::int, ${a.extraHits}::int, ${a.unspent}::int, ${a.burst?.row ?? null}::text, ${a.burst?.windowMs ?? 0}::int)`);
+  const row = result.rows[0]!;
+  return {
+    units: Number(row.granted_units),
+    hits: Number(row.granted_hits),
+    used: Number(row.used),
+    quota: Number(row.quota),
+    warned80: row.warned80,
+    warned100: row.warned100,
+    burst: row.hits === null || row.reset_at === null ? undefined : { hits: Number(row.hits), limit: Number(row.burst_limit), resetAt: new Date(row.reset_at) },
+    holders: Number(row.holders),
+  };
+}
+
+/** Gives unspent reserved units (and hits of a still-current window) back and drops the lease row. */
+export async function returnKeyLease(
+  db: Db,
+  r: { instanceId: string; keyId: string; day: string; units: number; burstRow?: string; hits: number; resetAt?: Date },
+): Promise<void> {
+  await db.execute(sql`
+    select gammaline_return_lease(${r.instanceId}::uuid, ${r.keyId}::uuid, ${r.day}::date, ${r.units}::int,
+      ${r.burstRow ?? null}::text, ${r.hits}::int, ${r.resetAt?.toISOString() ?? null}::timestamptz)`);
+}
+
+/** Usage of one key, endpoint and day, added up in memory since the last flush. */
+export interface BufferedUsage {
+  organisationId: string;
+  userId: string;
+  keyId: string;
+  endpoint: string;
+  day: string;
+  units: number;
+  requests: number;
+}
+
+/**
+ * Writes buffered usage and refreshes the process's lease rows in one statement. `seq` numbers the
+ * process's flushes; a flush sent again after a lost answer is skipped (false), never counted twice.
+ */
+export async function flushKeyUsage(
+  db: Db,
+  f: { instanceId: string; seq: number; usage: BufferedUsage[]; leases: { keyId: string; day: string; units: number }[] },
+): Promise<boolean> {
+  const u = f.usage;
+  const result = await db.execute<{ applied: boolean }>(sql`
+    select gammaline_flush_usage(${f.instanceId}::uuid, ${f.seq}::bigint,
+      ${sql.param(u.map((r) => r.organisationId))}::uuid[], ${sql.param(u.map((r) => r.userId))}::uuid[], ${sql.param(u.map((r) => r.keyId))}::uuid[],
+      ${sql.param(u.map((r) => r.endpoint))}::text[], ${sql.param(u.map((r) => r.day))}::date[],
+      ${sql.param(u.map((r) => r.units))}::int[], ${sql.param(u.map((r) => r.requests))}::int[],
+      ${sql.param(f.leases.map((l) => l.keyId))}::uuid[], ${sql.param(f.leases.map((l) => l.day))}::date[], ${sql.param(f.leases.map((l) => l.units))}::int[]
+    ) as applied`);
+  return result.rows[0]!.applied;
+}

@@ -3,6 +3,7 @@ import { quotaWarningMail } from '../mail/messages.ts';
 import { claimQuotaWarning } from './quota.repository.ts';
 
 interface WarningInput {
+  organisationId: string;
   key: { id: string; name: string; displayStart: string; dailyQuota: number; ownerEmail: string };
   day: string;
   used: number;
@@ -24,7 +25,7 @@ export function sendQuotaWarnings(ctx: AppContext, w: WarningInput): void {
     void (async () => {
       if (!(await claimQuotaWarning(ctx.database.db, w.key.id, w.day, threshold))) return;
       await ctx.mailer.send(
-        quotaWarningMail({ to: w.key.ownerEmail, keyName: w.key.name, displayStart: w.key.displayStart, used: w.used, quota, threshold, day: w.day }),
+        quotaWarningMail({ to: w.key.ownerEmail, organisationId: w.organisationId, keyName: w.key.name, displayStart: w.key.displayStart, used: w.used, quota, threshold, day: w.day }),
       );
     })().catch((err: unknown) => ctx.logger.warn({ err, keyId: w.key.id, threshold }, 'could not send a quota warning'));
   }

@@ -6,6 +6,7 @@ import type TestAgent from 'supertest/lib/agent.js';
 import { createApp } from '../../server/app.ts';
 import { testConfig, type AppConfig } from '../../server/config.ts';
 import { calculationGuard } from '../../server/auth/caller.ts';
+import { keyServicesFor } from '../../server/auth/key-services.ts';
 import { sessionMiddleware } from '../../server/auth/session.ts';
 import { systemClock, type AppContext, type Clock } from '../../server/context.ts';
 import { openDatabase, type Database } from '../../server/db/client.ts';
@@ -85,6 +86,8 @@ export async function createTestApp(overrides: Partial<AppConfig> = {}, options:
       developerKey: developerKey.secret,
     },
     signIn,
+    /** See settleQuota: the database then shows exactly the units and usage spent so far. */
+    settle: () => settleQuota(database),
     adminAgent: () => signIn(config.demoAdmin.email, config.demoAdmin.password),
     developerAgent: () => signIn(TEST_DEVELOPER.email, TEST_DEVELOPER.password),
     close: async () => {
@@ -96,6 +99,14 @@ export async function createTestApp(overrides: Partial<AppConfig> = {}, options:
 }
 
 export type TestApp = Awaited<ReturnType<typeof createTestApp>>;
+
+/**
+ * Gives back the quota units the app's process reserved ahead of need and writes its buffered usage
+ * (server/quota/key-leases.ts), so that key_quota_days and usage_daily show exactly what was spent.
+ */
+export async function settleQuota(database: Database): Promise<void> {
+  await keyServicesFor(database, pino({ level: 'silent' })).leases.settle();
+}
 
 /** An app whose database is unreachable (a closed loopback port), for 503 paths. */
 export function createAppWithoutDatabase() {

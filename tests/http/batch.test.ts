@@ -28,7 +28,10 @@ async function keyWithQuota(dailyQuota: number): Promise<{ headers: Record<strin
   );
   return {
     headers: { Authorization: `Bearer ${created.secret}` },
-    used: () => unitsUsed(ctx.database.db, created.key.id, utcDay(new Date())),
+    used: async () => {
+      await ctx.settle();
+      return unitsUsed(ctx.database.db, created.key.id, utcDay(new Date()));
+    },
   };
 }
 

@@ -4,25 +4,34 @@ import { users } from '../../server/db/schema.ts';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
 import { openApiDocument } from '../../server/openapi/document.ts';
 import { createTestApp, type TestApp } from '../helpers/app.ts';
-import { consoleHeaders, inPool, listen, send, type Answer, type HostileRequest } from '../helpers/live-server.ts';
+import { consoleHeaders, inPool, inPoolFrom, send, startServerProcess, type Answer, type HostileRequest, type ServerProcess } from '../helpers/live-server.ts';
 
 // Generated hostile bodies for every JSON endpoint of the OpenAPI document. Every body is invalid by
 // construction (wrong JSON type, out of the documented range, a required field missing, a field the
 // strict schema does not know, not JSON at all, not UTF-8, not declared as JSON), so every answer must
 // be a 4xx RFC 9457 problem (application/problem+json), never a 5xx and never a hang.
 //
-// Budget: the issue asks 10,000 bodies per endpoint; a metered call costs about 2 ms here (key lookup,
-// burst window and quota spent in PostgreSQL on two shared cores), so 10,000 × 22 endpoints would take
-// minutes. `npm test` sends 3,000 per calculation endpoint, 1,000 to the batch and 200 to each other
-// endpoint (about 40 s); HOSTILE_BODIES=10000 sends the issue's full count to every calculation
-// endpoint (and a tenth of it elsewhere) for a nightly or pre-release run.
+// Count: `npm test` sends the issue's 10,000 generated bodies to EVERY endpoint (22 today, so about
+// 220,000 requests), plus a handful of heavy ones (deep nesting, huge arrays, over the limit) each.
+// To keep that bounded in time the server runs as its own processes (server/index.ts with WORKERS=2,
+// as `npm start` runs it, so a crash shows as refused connections instead of killing the test run),
+// IN_FLIGHT requests are in flight at once over keep-alive sockets, console-only endpoints rotate
+// over CONSOLE_SESSIONS sessions, and bodies are generated lazily in chunks of CHUNK, never all held
+// at once. Measured on the 2-core machine, whole file: 2 min 47 s to
+// 3 min 48 s depending on what else ran (about 0.7 to 1 ms per body; before this change: 46 s for
+// 3,000 bodies per calculation endpoint and 200 elsewhere). The time goes to the server, not to the
+// generator (the test process stays under half a core).
+// HOSTILE_BODIES=<n> changes the count (e.g. 1000 while working on this file); HOSTILE_SEED=<seed>
+// repeats a failing run.
 // The batch is attacked at its envelope only: a bad item inside a good envelope is a 200 with that
 // item's own problem by design (tests/http/batch.test.ts covers those).
 
-const CALCULATION_BODIES = Number(process.env.HOSTILE_BODIES ?? 3_000);
-const BATCH_BODIES = Math.max(1_000, CALCULATION_BODIES / 3);
-const OTHER_BODIES = Math.max(200, CALCULATION_BODIES / 10);
-const IN_FLIGHT = 8;
+const BODIES = Number(process.env.HOSTILE_BODIES ?? 10_000);
+const IN_FLIGHT = 32;
+/** Bodies generated per fast-check sample: small enough that memory stays flat, big enough to be cheap. */
+const CHUNK = 500;
+/** Console sessions the console-only endpoints rotate through, so requests do not queue on one session row. */
+const CONSOLE_SESSIONS = 16;
 /** A request the server has not answered within this is reported as a hang (common practice: bounded waits). */
 const REQUEST_TIMEOUT_MS = 10_000;
 const SEED = Number(process.env.HOSTILE_SEED ?? Date.now() % 2 ** 31);
@@ -187,6 +196,8 @@ interface Body {
   kind: string;
   contentType: string;
   body: string | Uint8Array;
+  chunked?: boolean;
+  declaredLength?: number;
 }
 
 const asJson = (kind: string, value: unknown): Body => ({ kind, contentType: 'application/json', body: JSON.stringify(value) });
@@ -319,7 +330,10 @@ function heavyBodies(example: unknown, options: { full: boolean }): Body[] {
   for (const n of options.full ? [10_000, 100_000, 300_000] : [10_000]) {
     out.push({ kind: `an array of ${n} numbers under an unknown key`, contentType: 'application/json', body: withUnknownKey(exampleText, 'many', manyNumbers(n)) });
   }
-  out.push({ kind: 'a body over the JSON limit (3 MB)', contentType: 'application/json', body: OVER_LIMIT });
+  // Sent in full without a length, the server must read up to its limit and stop there; only claimed,
+  // it must refuse from the claim (server/http/body-size.ts) without waiting for bytes that never come.
+  out.push({ kind: 'a body over the JSON limit (3 MB), chunked', contentType: 'application/json', body: OVER_LIMIT, chunked: true });
+  out.push({ kind: 'a claimed length of 1 GB, no body sent', contentType: 'application/json', body: '', declaredLength: 1024 ** 3 });
   return out;
 }
 
@@ -361,12 +375,14 @@ interface Endpoint {
 }
 
 let ctx: TestApp;
-let live: Awaited<ReturnType<typeof listen>>;
+let live: ServerProcess;
 let endpoints: Endpoint[];
 
 beforeAll(async () => {
   ctx = await createTestApp();
-  live = await listen(ctx.app);
+  // Two workers, one per core as README advises: the cluster mode meets the hostile bodies too, and the
+  // run took 3 min 32 s instead of 4 min 18 s with one worker, under the same load.
+  live = await startServerProcess({ databaseUrl: ctx.database.url, env: { WORKERS: '2' } });
   const actor = { userId: ctx.seed.adminId, label: ctx.seed.adminEmail };
   // A key no hostile body can exhaust: 429s would hide the answers we want to see.
   const heavy = await createKey(
@@ -380,7 +396,11 @@ beforeAll(async () => {
     .insert(users)
     .values({ organisationId: ctx.seed.organisationId, email: 'tamsin.vale@kestrel-ridge.example', displayName: 'Tamsin Vale' })
     .returning();
-  const admin = await consoleHeaders(live.base, ctx.config.demoAdmin.email, ctx.config.demoAdmin.password);
+  // All signed in before any hostile body: 400s on POST /session count as failed sign-ins and throttle the address.
+  const admins: Record<string, string>[] = [];
+  for (let i = 0; i < CONSOLE_SESSIONS; i++) admins.push(await consoleHeaders(live.base, ctx.config.demoAdmin.email, ctx.config.demoAdmin.password));
+  const admin = admins[0]!;
+  let turn = 0;
   const key = { authorization: `Bearer ${heavy.secret}` };
 
   const cable = await send(live.base, {
@@ -413,7 +433,7 @@ beforeAll(async () => {
       if (!content?.['application/json']) continue;
       const schema = content['application/json'].schema;
       const security = ((op.security ?? []) as Record<string, unknown>[]).flatMap((s) => Object.keys(s));
-      const headers = security.includes('apiKey') ? key : security.includes('consoleSession') ? admin : {};
+      const headers = security.includes('apiKey') ? () => key : security.includes('consoleSession') ? () => admins[turn++ % admins.length]! : () => ({});
       if (path.includes('{') && !ids[path]) throw new Error(`no id for ${path}; add one above`);
       endpoints.push({
         method: method.toUpperCase(),
@@ -422,7 +442,7 @@ beforeAll(async () => {
         schema,
         example: exampleOf(schema),
         calculation: op.tags?.includes('Calculations') ?? false,
-        headers: () => headers,
+        headers,
         multipart: Boolean(content['multipart/form-data']),
       });
     }
@@ -430,9 +450,16 @@ beforeAll(async () => {
 }, 120_000);
 
 afterAll(async () => {
-  await live?.close();
+  await live?.stop();
   await ctx?.close();
 });
+
+/** `count` hostile bodies for one endpoint, drawn CHUNK at a time from seeds that HOSTILE_SEED fixes. */
+function* generated(arbitrary: fc.Arbitrary<Body>, count: number, seed: number): Generator<Body> {
+  for (let chunk = 0; chunk * CHUNK < count; chunk++) {
+    yield* fc.sample(arbitrary, { numRuns: Math.min(CHUNK, count - chunk * CHUNK), seed: (seed + chunk * 7_919) % 2 ** 31 });
+  }
+}
 
 describe('generated hostile bodies (RFC 9457 answers, never 5xx, never a hang)', () => {
   it('finds every JSON endpoint of the OpenAPI document, with an example body the schema walk understands', () => {
@@ -443,33 +470,44 @@ describe('generated hostile bodies (RFC 9457 answers, never 5xx, never a hang)',
     for (const e of endpoints) expect(e.example, `${e.method} ${e.path}`).toBeTypeOf('object');
   });
 
-  it('answers every generated body of every endpoint with a 4xx problem, and /healthz still answers', async () => {
+  it('answers 10,000 generated bodies of every endpoint with a 4xx problem, and the server still computes afterwards', async () => {
     const failures: string[] = [];
-    let sent = 0;
+    const sent = new Map<string, number>();
     for (const [i, e] of endpoints.entries()) {
-      const count = e.path === '/api/v1/batch' ? BATCH_BODIES : e.calculation ? CALCULATION_BODIES : OTHER_BODIES;
-      const generated = fc.sample(hostileBodies(e.schema, e.example, { multipart: e.multipart, envelopeOnly: e.path === '/api/v1/batch' }), { numRuns: count, seed: SEED + i });
-      const bodies = [...heavyBodies(e.example, { full: e.calculation }), ...generated];
-      await inPool(bodies, IN_FLIGHT, async (b) => {
+      const arbitrary = hostileBodies(e.schema, e.example, { multipart: e.multipart, envelopeOnly: e.path === '/api/v1/batch' });
+      const bodies = (function* () {
+        yield* heavyBodies(e.example, { full: e.calculation });
+        yield* generated(arbitrary, BODIES, SEED + i * 1_000_003);
+      })();
+      const count = await inPoolFrom(bodies, IN_FLIGHT, async (b) => {
         const req: HostileRequest = {
           method: e.method,
           path: e.url,
           headers: { ...e.headers(), ...(b.contentType ? { 'content-type': b.contentType } : {}) },
           body: b.body,
+          chunked: b.chunked,
+          declaredLength: b.declaredLength,
         };
         const problem = complaint(await send(live.base, req, REQUEST_TIMEOUT_MS));
-        sent++;
         if (problem && failures.length < 20) {
           const excerpt = typeof b.body === 'string' ? b.body.slice(0, 160) : `${b.body.length} bytes`;
           failures.push(`${e.method} ${e.path} — ${b.kind} — ${problem} — body ${excerpt}`);
         }
       });
+      sent.set(`${e.method} ${e.path}`, count);
     }
     expect(failures, `seed ${SEED} (HOSTILE_SEED=${SEED} reproduces)`).toEqual([]);
-    expect(sent).toBeGreaterThanOrEqual(5 * CALCULATION_BODIES + BATCH_BODIES + 16 * OTHER_BODIES);
-    const health = await send(live.base, { method: 'GET', path: '/healthz' });
-    expect(health.status).toBe(200);
-  }, 300_000);
+    expect(sent.size).toBe(endpoints.length);
+    for (const [endpoint, count] of sent) expect(count, endpoint).toBeGreaterThanOrEqual(BODIES);
+
+    // Healthy afterwards: alive, its database reachable, and still computing the right answer
+    // (SWR 1.5 ↔ |Γ| = 0.2, from Γ = (SWR − 1)/(SWR + 1)).
+    expect((await send(live.base, { method: 'GET', path: '/healthz' })).status).toBe(200);
+    expect((await send(live.base, { method: 'GET', path: '/readyz' })).status).toBe(200);
+    const after = await send(live.base, { method: 'POST', path: '/api/v1/mismatch', headers: { ...ctx.auth, 'content-type': 'application/json' }, body: '{"swr":1.5}' });
+    expect(after.status, after.text).toBe(200);
+    expect(JSON.parse(after.text).reflectionMagnitude).toBeCloseTo(0.2, 12);
+  }, 900_000);
 
   it('answers well-typed but extreme numbers in the calculations with a result or a 4xx problem, never a 5xx', async () => {
     // Valid shapes carrying the edges of double precision (1e308, 5e-324, -0, 2^53) reach the math itself.

@@ -5,10 +5,11 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
 import { openDatabase, type Database } from '../../server/db/client.ts';
 import { spendKeyUnitsGroup } from '../../server/quota/quota.repository.ts';
-import { createMeteredApp, createTestApp, type TestApp } from '../helpers/app.ts';
+import { createMeteredApp, createTestApp, settleQuota, type TestApp } from '../helpers/app.ts';
 
-// Group commit: one statement decides every spend waiting for a key, first fit in arrival order, and
-// coalesced burst hits count exactly as if they had been sent one by one.
+// The database's group statement (NDJSON blocks) decides every spend of a group first fit in arrival
+// order; two processes metering through quota leases never spend more than the quota or the burst
+// limit, and once they settle the database shows exactly what was spent.
 
 let ctx: TestApp;
 const pools: Database[] = [];
@@ -94,6 +95,7 @@ describe('many concurrent multi-unit requests on two instances', () => {
     expect(admittedUnits).toBeLessThanOrEqual(500);
     // Requests of 1 unit keep arriving after the quota is nearly spent, so at most 3 units stay unused.
     expect(admittedUnits).toBeGreaterThanOrEqual(497);
+    await Promise.all(pools.map(settleQuota));
     const spent = await ctx.database.db.execute(sql`select used from key_quota_days where key_id = ${key.key.id}::uuid`);
     expect(spent.rows).toEqual([{ used: admittedUnits }]);
     expect(await usage(key.key.id)).toEqual([{ endpoint: 'probe', units: admittedUnits, requests: admitted }]);
@@ -112,6 +114,7 @@ describe('coalesced burst hits', () => {
     );
     expect(statuses.filter((s) => s === 200)).toHaveLength(37);
     expect(statuses.filter((s) => s === 429)).toHaveLength(83);
+    await Promise.all(pools.map(settleQuota));
     const spent = await ctx.database.db.execute(sql`select used from key_quota_days where key_id = ${key.key.id}::uuid`);
     expect(spent.rows).toEqual([{ used: 37 }]);
   });

@@ -4,7 +4,7 @@ import { sql } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { openDatabase, type Database } from '../../server/db/client.ts';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
-import { createMeteredApp, createTestApp, type TestApp } from '../helpers/app.ts';
+import { createMeteredApp, createTestApp, settleQuota, type TestApp } from '../helpers/app.ts';
 
 // Exact quotas under contention (common practice for metered APIs): N parallel requests against
 // M < N remaining units admit exactly M, also with two server processes sharing the database.
@@ -64,6 +64,8 @@ describe('two app instances on one database', () => {
     await Promise.all(Array.from({ length: IN_FLIGHT }, worker));
 
     expect(Object.fromEntries(statuses)).toEqual({ 200: QUOTA, 429: REQUESTS - QUOTA });
+    // Usage is buffered in each process for up to a second (quota leases); settling writes it.
+    await Promise.all(pools.map(settleQuota));
     const spent = await ctx.database.db.execute(sql`select used from key_quota_days where key_id = ${key.key.id}::uuid`);
     expect(spent.rows).toEqual([{ used: QUOTA }]);
     const recorded = await ctx.database.db.execute(sql`select units, requests from usage_daily where key_id = ${key.key.id}::uuid`);

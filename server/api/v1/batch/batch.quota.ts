@@ -1,6 +1,7 @@
 import type { Response } from 'express';
 import type { AppContext } from '../../../context.ts';
 import { callerOf } from '../../../auth/caller.ts';
+import { keyServicesFor } from '../../../auth/key-services.ts';
 import { ApiError } from '../../../http/problem.ts';
 import { secondsUntilUtcMidnight, utcDay } from '../../../quota/day.ts';
 import { recordConsoleUsage, spendKeyUnits, unitsUsed } from '../../../quota/quota.repository.ts';
@@ -10,7 +11,10 @@ import { sendQuotaWarnings } from '../../../quota/warnings.ts';
 export async function remainingUnits(ctx: AppContext, res: Response): Promise<number> {
   const key = res.locals.callerLimits?.key;
   if (callerOf(res).kind === 'session' || !key) return Number.POSITIVE_INFINITY;
-  return Math.max(0, key.dailyQuota - (await unitsUsed(ctx.database.db, key.id, utcDay(ctx.clock.now()))));
+  const day = utcDay(ctx.clock.now());
+  // Units this process reserved and has not spent are still the caller's to spend.
+  const unspent = keyServicesFor(ctx.database, ctx.logger).leases.unspent(key.id, day);
+  return Math.max(0, key.dailyQuota - (await unitsUsed(ctx.database.db, key.id, day)) + unspent);
 }
 
 /**
@@ -31,10 +35,15 @@ export async function chargeUnits(ctx: AppContext, res: Response, endpoint: stri
   for (let attempt = 0; attempt < 5 && ask > 0; attempt++) {
     const spent = await spendKeyUnits(ctx.database.db, { keyId: key.id, organisationId: caller.organisationId, userId: caller.userId, endpoint, day, units: ask, quota: key.dailyQuota });
     if (spent.admitted) {
-      sendQuotaWarnings(ctx, { key, day, used: spent.used, warned80: spent.warned80, warned100: spent.warned100 });
+      sendQuotaWarnings(ctx, { organisationId: caller.organisationId, key, day, used: spent.used, warned80: spent.warned80, warned100: spent.warned100 });
       return ask;
     }
     ask = Math.min(ask, key.dailyQuota - spent.used);
+    // Units this process holds for single calls of the key go back first, so the stream can use them.
+    if (attempt === 0) {
+      await keyServicesFor(ctx.database, ctx.logger).leases.giveBackKey(key.id);
+      ask = wanted;
+    }
   }
   return 0;
 }

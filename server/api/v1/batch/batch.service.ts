@@ -37,9 +37,10 @@ export function runItem(item: unknown, prefix: string, env: CalculationEnv, logg
   if (item === null || typeof item !== 'object' || Array.isArray(item)) {
     return fail('validation', prefix, 'each item is an object { "op": …, "input": { … } }');
   }
-  const { op, input, ...extra } = item as { op?: unknown; input?: unknown };
-  const unknownKey = Object.keys(extra)[0];
-  if (unknownKey !== undefined) return fail('validation', join(prefix, unknownKey), 'unknown key; an item has only "op" and "input"');
+  const { op, input } = item as { op?: unknown; input?: unknown };
+  for (const key in item) {
+    if (key !== 'op' && key !== 'input') return fail('validation', join(prefix, key), 'unknown key; an item has only "op" and "input"');
+  }
   if (typeof op !== 'string' || !OPERATIONS.has(op)) {
     return fail('validation', join(prefix, 'op'), `op must be one of ${BATCH_OPERATIONS.map((o) => `"${o}"`).join(', ')}`);
   }

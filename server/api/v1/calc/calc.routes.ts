@@ -3,7 +3,7 @@ import { keyOrSession, meteredProblems, rateLimitHeaders } from '../../../auth/o
 import type { AppContext } from '../../../context.ts';
 import { validateBody } from '../../../http/validate.ts';
 import { calculationProblems, registry } from '../../../openapi/registry.ts';
-import { calculationEnvFor, cableIdsIn } from '../cables/cables.env.ts';
+import { accountCableIdsIn, calculationEnvFor } from '../cables/cables.env.ts';
 import { assertFinite, CALCULATIONS, catalogOnly, type CalculationEnv, type CalculationName } from './operations.ts';
 
 /** Authentication and metering for one endpoint, supplied by whoever mounts the router. */
@@ -72,10 +72,19 @@ for (const route of CALCULATION_ROUTES) {
  * catalog plus the caller's account cables that the body names.
  */
 export function calculationEnv(ctx: AppContext, fixed?: CalculationEnv): RequestHandler {
-  return async (_req, res, next) => {
+  return (_req, res, next) => {
     const caller = res.locals.caller;
-    res.locals.calculationEnv = fixed ?? (caller ? await calculationEnvFor(ctx.database.db, caller.organisationId, cableIdsIn(res.locals.body)) : catalogOnly);
-    next();
+    const ids = fixed || !caller ? [] : accountCableIdsIn(res.locals.body);
+    // Most bodies name catalog cables or none: decided without a promise or a query.
+    if (ids.length === 0) {
+      res.locals.calculationEnv = fixed ?? catalogOnly;
+      next();
+      return;
+    }
+    calculationEnvFor(ctx.database.db, caller!.organisationId, ids).then((env) => {
+      res.locals.calculationEnv = env;
+      next();
+    }, next);
   };
 }
 

@@ -51,18 +51,23 @@ export function matchedLossDbOf(line: LineModel): number {
 
 /** Refuses to send a number that overflowed: JSON would silently turn it into null. */
 export function assertFinite<T>(value: T): T {
-  const stack: unknown[] = [value];
-  while (stack.length > 0) {
-    const v = stack.pop();
-    if (typeof v === 'number') {
-      if (!Number.isFinite(v)) {
-        throw new ApiError('unprocessable', 'The inputs lead to a result outside double-precision range; check their units and magnitudes.');
-      }
-    } else if (v && typeof v === 'object') {
-      stack.push(...Object.values(v));
-    }
+  if (!allFinite(value)) {
+    throw new ApiError('unprocessable', 'The inputs lead to a result outside double-precision range; check their units and magnitudes.');
   }
   return value;
+}
+
+// Results are a few levels deep: plain recursion with for…in allocates nothing per object.
+function allFinite(v: unknown): boolean {
+  if (typeof v === 'number') return Number.isFinite(v);
+  if (v === null || typeof v !== 'object') return true;
+  if (Array.isArray(v)) {
+    for (let i = 0; i < v.length; i++) if (!allFinite(v[i])) return false;
+    return true;
+  }
+  const o = v as Record<string, unknown>;
+  for (const k in o) if (!allFinite(o[k])) return false;
+  return true;
 }
 
 function definedOnly<T extends object>(value: T): T {

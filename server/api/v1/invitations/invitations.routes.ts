@@ -145,7 +145,7 @@ export function invitationsRouter(ctx: AppContext): Router {
     const [org] = await db.select({ name: organisations.name }).from(organisations).where(eq(organisations.id, caller.organisationId));
     const link = `${ctx.config.publicUrl}/invitation?token=${encodeURIComponent(token)}`;
     try {
-      await ctx.mailer.send(invitationMail({ to: email, organisationName: org?.name ?? 'your organisation', invitedBy: actor.label, role: body.role, link, expiresAt }));
+      await ctx.mailer.send(invitationMail({ to: email, organisationId: caller.organisationId, organisationName: org?.name ?? 'your organisation', invitedBy: actor.label, role: body.role, link, expiresAt }));
     } catch (err) {
       throw new ApiError('unavailable', 'The invitation was saved but the mail server did not take the message; send the invitation again shortly.', {
         headers: { 'Retry-After': '30' },

@@ -15,7 +15,11 @@ function keyView() {
     ownerEmail: users.email,
     ownerName: users.displayName,
     ownerDisabled: users.disabled,
-    usedToday: sql<number>`coalesce(${keyQuotaDays.used}, 0)`.mapWith(Number),
+    // Units reserved by running processes but not spent yet are not "used"; a process that has gone
+    // (row not refreshed for 5 s) lost its reservation, which stays counted (see server/quota/key-leases.ts).
+    usedToday: sql<number>`greatest(0, coalesce(${keyQuotaDays.used}, 0) - coalesce((
+      select sum(l.units) from quota_leases l
+      where l.key_id = ${apiKeys.id} and l.day = ${keyQuotaDays.day} and l.updated_at > now() - interval '5 seconds'), 0))`.mapWith(Number),
   };
 }
 

@@ -61,7 +61,7 @@ export function passwordResetRouter(ctx: AppContext): Router {
 
   router.post('/password-reset', resetThrottleByAddress(ctx), validateBody(RequestResetSchema), async (req, res) => {
     const email = (res.locals.body as z.infer<typeof RequestResetSchema>).email.toLowerCase();
-    const [user] = await db.select({ id: users.id, email: users.email, disabled: users.disabled }).from(users).where(sql`lower(${users.email}) = ${email}`);
+    const [user] = await db.select({ id: users.id, email: users.email, disabled: users.disabled, organisationId: users.organisationId }).from(users).where(sql`lower(${users.email}) = ${email}`);
     if (user && !user.disabled && (await mailsPerAccount.allow(email))) {
       const now = ctx.clock.now();
       const expiresAt = new Date(now.getTime() + RESET_TTL_MS);
@@ -73,7 +73,7 @@ export function passwordResetRouter(ctx: AppContext): Router {
       });
       const link = `${ctx.config.publicUrl}/password-reset?token=${encodeURIComponent(token)}`;
       // A mail failure is logged, not reported: the answer must not differ for known addresses.
-      await ctx.mailer.send(passwordResetMail({ to: user.email, link, expiresAt })).catch((err: unknown) => req.log?.error({ err }, 'could not send a reset link'));
+      await ctx.mailer.send(passwordResetMail({ to: user.email, organisationId: user.organisationId, link, expiresAt })).catch((err: unknown) => req.log?.error({ err }, 'could not send a reset link'));
     }
     res.status(202).json(ACCEPTED);
   });

@@ -2,6 +2,7 @@ import { Router } from 'express';
 import { sql } from 'drizzle-orm';
 import type { AppContext } from '../../../context.ts';
 import { callerOf, requireCaller } from '../../../auth/caller.ts';
+import { keyServicesFor } from '../../../auth/key-services.ts';
 import { authProblems, keyOrSession } from '../../../auth/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
 import { validateQuery } from '../../../http/validate.ts';
@@ -82,6 +83,8 @@ export function usageRouter(ctx: AppContext): Router {
   const router = Router();
 
   router.get('/usage', requireCaller(ctx), validateQuery(UsageQuerySchema), async (_req, res) => {
+    // Usage of key calls is buffered for up to a second; this process's own calls are shown at once.
+    await keyServicesFor(ctx.database, ctx.logger).leases.flush();
     const caller = callerOf(res);
     const q = res.locals.query as z.infer<typeof UsageQuerySchema>;
     const to = q.to ?? utcDay(ctx.clock.now());

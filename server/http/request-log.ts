@@ -1,0 +1,54 @@
+import { randomUUID } from 'node:crypto';
+import type { Express, Request, RequestHandler } from 'express';
+import type { Logger } from 'pino';
+
+declare module 'http' {
+  interface IncomingMessage {
+    /** The request id echoed in `X-Request-Id` and written on every log line of the request. */
+    id: string;
+    /** A logger bound to the request id (made on first use). */
+    log: Logger;
+  }
+}
+
+const REQUEST_ID_PATTERN = /^[A-Za-z0-9._-]{1,64}$/;
+
+/**
+ * Request ids and the access log: one line per finished request with method, path (never the query
+ * string, which can carry tokens), status and time; never headers, so keys, cookies and CSRF tokens
+ * cannot reach the log. A caller's own `X-Request-Id` is echoed when it is safe to log; otherwise one
+ * is minted. `req.log` is a child logger created only when a route logs something: on the hot path
+ * a request costs an id and, when info is enabled, one small line.
+ */
+export function requestLog(app: Express, logger: Logger): RequestHandler {
+  Object.defineProperty(app.request, 'log', {
+    configurable: true,
+    get(this: Request) {
+      const child = logger.child({ reqId: this.id });
+      Object.defineProperty(this, 'log', { value: child, configurable: true, writable: true });
+      return child;
+    },
+  });
+  return (req, res, next) => {
+    const incoming = req.headers['x-request-id'];
+    const id = typeof incoming === 'string' && REQUEST_ID_PATTERN.test(incoming) ? incoming : randomUUID();
+    req.id = id;
+    res.setHeader('X-Request-Id', id);
+    if (logger.isLevelEnabled('info')) {
+      const started = performance.now();
+      res.once('finish', () => {
+        const status = res.statusCode;
+        const queryAt = req.originalUrl.indexOf('?');
+        const line = {
+          reqId: id,
+          req: { method: req.method, path: queryAt === -1 ? req.originalUrl : req.originalUrl.slice(0, queryAt) },
+          res: { statusCode: status },
+          responseTime: Math.round(performance.now() - started),
+        };
+        if (status >= 500) logger.error(line, 'request failed');
+        else logger.info(line, 'request completed');
+      });
+    }
+    next();
+  };
+}

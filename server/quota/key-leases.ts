@@ -1,0 +1,464 @@
+import { randomUUID } from 'node:crypto';
+import { sql } from 'drizzle-orm';
+import type { Logger } from 'pino';
+import type { Db } from '../db/client.ts';
+import { utcDay } from './day.ts';
+import { flushKeyUsage, leaseKeyUnits, returnKeyLease, type BufferedUsage, type LeaseGrant } from './quota.repository.ts';
+import { UsageBuffer } from './usage-buffer.ts';
+
+/** A process that cannot cover a request asks the others for their unspent units on this channel… */
+export const QUOTA_RECLAIM_CHANNEL = 'gammaline_quota_reclaim';
+/** …and they answer on this one once the units are back in the database (drizzle/0005). */
+export const QUOTA_RETURNED_CHANNEL = 'gammaline_quota_returned';
+
+/** Buffered usage reaches the database this often; a crash loses at most this much of it. */
+export const USAGE_FLUSH_MS = 1_000;
+/** Units a key has not touched for this long go back to the database. */
+export const IDLE_RETURN_MS = 1_000;
+/** Most units (and hits) reserved ahead of need in one lease. */
+export const MAX_PREFETCH = 4_096;
+/** How long a refusing process waits for other processes to give units back. */
+const RECLAIM_WAIT_MS = 250;
+/** After giving units back on request, a process reserves only what it needs for this long. */
+const NEED_ONLY_MS = 10_000;
+/** The demand that sizes the next reservation is measured over windows of this length. */
+const RATE_WINDOW_MS = 100;
+/** Most waiting requests one lease decides; a longer queue is served by the next lease. */
+const MAX_GROUP = 2_000;
+/** A pool untouched for this long, holding nothing, is forgotten. */
+const FORGET_MS = 60_000;
+
+/** One metered call of a key. */
+export interface MeteredCall {
+  keyId: string;
+  organisationId: string;
+  userId: string;
+  endpoint: string;
+  day: string;
+  units: number;
+  /** The key's per-minute window row; every call of a key counts one hit in it. */
+  burst?: { row: string; windowMs: number };
+}
+
+/** Whether a call may run, with the figures its RateLimit headers show. */
+export interface MeterDecision {
+  admitted: boolean;
+  /** Why a call was refused: no hit left in the per-minute window, or not enough units today. */
+  refusedBy?: 'burst' | 'quota';
+  /** The day's units spent by this key, this call included (reservations of other processes count as spent). */
+  used: number;
+  quota: number;
+  warned80: boolean;
+  warned100: boolean;
+  burst?: { totalHits: number; limit: number; resetAt: Date };
+}
+
+interface Waiting {
+  call: MeteredCall;
+  resolve(decision: MeterDecision): void;
+  reject(err: unknown): void;
+  /** Other processes were already asked for units on this call's behalf. */
+  reclaimed: boolean;
+}
+
+/** What this process holds for one key and day. */
+class KeyDayPool {
+  /** Reserved in the database and not spent yet. */
+  units = 0;
+  /** Reserved hits of the per-minute window ending at resetAt. */
+  hits = 0;
+  resetAt: Date | undefined;
+  burstLimit = 0;
+  /** The window's hits in the database after this process's latest lease (reservations included). */
+  burstHits = 0;
+  /** The day's spent and reserved units after this process's latest lease. */
+  used = 0;
+  quota = 0;
+  warned80 = false;
+  warned100 = false;
+  /** A lease row of this process exists for the key and day. */
+  leased = false;
+  /** Units the lease row shows, and when it was last written. */
+  reportedUnits = 0;
+  reportedAtMs = 0;
+  waiting: Waiting[] = [];
+  /** A lease or a return is running; only one at a time per pool. */
+  running: Promise<void> | undefined;
+  giveBackAsked = false;
+  lastUseMs = 0;
+  needOnlyUntilMs = 0;
+  private windowStartMs = 0;
+  private windowUnits = 0;
+  private windowHits = 0;
+  private lastWindowUnits = 0;
+  private lastWindowHits = 0;
+
+  constructor(
+    readonly keyId: string,
+    readonly day: string,
+    readonly burstRow: string | undefined,
+  ) {}
+
+  hitsValid(nowMs: number): boolean {
+    return this.resetAt !== undefined && this.resetAt.getTime() > nowMs;
+  }
+
+  noteUse(units: number, nowMs: number): void {
+    if (nowMs - this.windowStartMs >= RATE_WINDOW_MS) {
+      const fresh = nowMs - this.windowStartMs < 2 * RATE_WINDOW_MS;
+      this.lastWindowUnits = fresh ? this.windowUnits : 0;
+      this.lastWindowHits = fresh ? this.windowHits : 0;
+      this.windowStartMs = nowMs;
+      this.windowUnits = 0;
+      this.windowHits = 0;
+    }
+    this.windowUnits += units;
+    this.windowHits += 1;
+  }
+
+  /** Reservation ahead of need: about two windows' worth of the recent demand. */
+  extra(nowMs: number): { units: number; hits: number } {
+    if (nowMs < this.needOnlyUntilMs) return { units: 0, hits: 0 };
+    return {
+      units: Math.min(MAX_PREFETCH, 2 * Math.max(this.lastWindowUnits, this.windowUnits)),
+      hits: Math.min(MAX_PREFETCH, 2 * Math.max(this.lastWindowHits, this.windowHits)),
+    };
+  }
+}
+
+/**
+ * Quota leases: the hot path of metering without a database round trip per request.
+ *
+ * Each process reserves units (and per-minute hits) of a key from PostgreSQL in blocks, with one atomic
+ * statement (`gammaline_lease_key`, drizzle/0005), and spends them in memory. The reservation counts
+ * in `key_quota_days.used` at once, so however many processes spend, the day's total can never pass
+ * the quota: overspend is exactly zero. Block sizes adapt: a lease asks for what waiting requests need
+ * plus about two windows of recent demand (at most MAX_PREFETCH), and the database grants the advance
+ * part only up to an eighth of what is still free, so reservations shrink to nothing as the quota runs
+ * out. Requests that arrive while a lease is running wait and are decided together by the next one.
+ *
+ * Nobody is refused while units sit unused elsewhere: a process that cannot cover a request, while
+ * other live processes hold unspent units of the key, asks them on QUOTA_RECLAIM_CHANNEL; they give
+ * theirs back and answer on QUOTA_RETURNED_CHANNEL, and the request is decided again (after at most
+ * RECLAIM_WAIT_MS). Unspent units also go back when a key stays idle for IDLE_RETURN_MS, when its
+ * day ends, when the key changes (a new quota applies at once), and on shutdown.
+ *
+ * Usage records are added up in memory and written every USAGE_FLUSH_MS in one statement that is
+ * applied exactly once (numbered flushes). What a crash (kill -9) costs, with the quota never at
+ * risk: the usage records of the last flush interval (the units stay spent), and the process's
+ * unspent reservations (at most MAX_PREFETCH per key, and never more than an eighth of what was free
+ * when reserved), which stay counted as used until the day ends.
+ */
+export class KeyLeases {
+  readonly instanceId = randomUUID();
+  private readonly pools = new Map<string, KeyDayPool>();
+  private readonly usage = new UsageBuffer();
+  private seq = 0;
+  private pendingFlush: { seq: number; usage: BufferedUsage[]; leases: { keyId: string; day: string; units: number }[] } | undefined;
+  private flushing: Promise<void> | undefined;
+  private timer: NodeJS.Timeout | undefined;
+  private readonly reclaimWaits = new Map<string, Set<(from: string) => void>>();
+
+  constructor(
+    private readonly db: Db,
+    private readonly logger: Logger,
+  ) {}
+
+  start(): void {
+    this.timer ??= setInterval(() => void this.tick(), USAGE_FLUSH_MS).unref();
+  }
+
+  /**
+   * Decides one call: at once (no promise) when this process holds enough, otherwise after a lease.
+   * An admitted call's usage is recorded; a refused one spends nothing.
+   */
+  spend(call: MeteredCall): MeterDecision | Promise<MeterDecision> {
+    const pool = this.pool(call);
+    const nowMs = Date.now();
+    pool.lastUseMs = nowMs;
+    // While a lease runs, its group was sized on what the pool holds: later calls wait for the next one.
+    if (!pool.running && pool.waiting.length === 0) {
+      const decided = this.admit(pool, call, nowMs);
+      if (decided) return decided;
+    }
+    return new Promise<MeterDecision>((resolve, reject) => {
+      pool.waiting.push({ call, resolve, reject, reclaimed: false });
+      if (!pool.running) this.run(pool);
+    });
+  }
+
+  /** Units this process holds unspent for a key and day (they count as used in the database). */
+  unspent(keyId: string, day: string): number {
+    return this.pools.get(`${keyId}/${day}`)?.units ?? 0;
+  }
+
+  /** Gives a key's unspent units back now (a quota change, or a caller that needs them elsewhere). */
+  async giveBackKey(keyId: string): Promise<void> {
+    await Promise.all([...this.pools.values()].filter((p) => p.keyId === keyId).map((p) => this.askGiveBack(p)));
+  }
+
+  /** A notification on one of the quota channels (delivered by the key-change listener). */
+  notified(channel: string, payload: string): void {
+    const [keyId, day, from] = payload.split('/');
+    if (!keyId || !day || !from || from === this.instanceId) return;
+    if (channel === QUOTA_RECLAIM_CHANNEL) {
+      const pool = this.pools.get(`${keyId}/${day}`);
+      if (!pool) return;
+      pool.needOnlyUntilMs = Date.now() + NEED_ONLY_MS;
+      void this.askGiveBack(pool);
+    } else if (channel === QUOTA_RETURNED_CHANNEL) {
+      for (const heard of this.reclaimWaits.get(`${keyId}/${day}`) ?? []) heard(from);
+    }
+  }
+
+  /** Writes buffered usage now (tests and shutdown; the interval does it otherwise). */
+  async flush(): Promise<void> {
+    while (this.flushing) await this.flushing;
+    this.flushing = this.flushOnce().finally(() => {
+      this.flushing = undefined;
+    });
+    await this.flushing;
+  }
+
+  /**
+   * Gives every unspent unit back and writes the buffered usage now, so that the database shows
+   * exactly what was spent (tests, the usage report after a load, shutdown).
+   */
+  async settle(): Promise<void> {
+    await Promise.all([...this.pools.values()].map((p) => this.askGiveBack(p)));
+    await this.flush();
+    // A flush that was retrying leaves the newer usage for a second one.
+    if (this.usage.size > 0) await this.flush();
+  }
+
+  /** Stops the interval and settles (graceful shutdown). */
+  async stop(): Promise<void> {
+    clearInterval(this.timer);
+    this.timer = undefined;
+    await this.settle();
+  }
+
+  private pool(call: MeteredCall): KeyDayPool {
+    const id = `${call.keyId}/${call.day}`;
+    let pool = this.pools.get(id);
+    if (!pool) {
+      pool = new KeyDayPool(call.keyId, call.day, call.burst?.row);
+      this.pools.set(id, pool);
+    }
+    return pool;
+  }
+
+  /** Spends from what the pool holds, or returns undefined when it cannot cover the call. */
+  private admit(pool: KeyDayPool, call: MeteredCall, nowMs: number): MeterDecision | undefined {
+    const needsHit = call.burst !== undefined;
+    if (needsHit && !(pool.hits >= 1 && pool.hitsValid(nowMs))) return undefined;
+    if (pool.units < call.units) return undefined;
+    pool.units -= call.units;
+    if (needsHit) pool.hits -= 1;
+    pool.noteUse(call.units, nowMs);
+    this.usage.add({ organisationId: call.organisationId, userId: call.userId, keyId: call.keyId, endpoint: call.endpoint, day: call.day, units: call.units });
+    return this.decision(pool, true);
+  }
+
+  private decision(pool: KeyDayPool, admitted: boolean, refusedBy?: 'burst' | 'quota'): MeterDecision {
+    return {
+      admitted,
+      refusedBy,
+      used: pool.used - pool.units,
+      quota: pool.quota,
+      warned80: pool.warned80,
+      warned100: pool.warned100,
+      burst: pool.resetAt && { totalHits: pool.burstHits - pool.hits, limit: pool.burstLimit, resetAt: pool.resetAt },
+    };
+  }
+
+  private run(pool: KeyDayPool): void {
+    pool.running = this.work(pool)
+      .catch((err: unknown) => {
+        // Not expected (each step handles its own failures); never leave a caller hanging.
+        this.logger.error({ err, keyId: pool.keyId }, 'quota lease failed');
+        for (const w of pool.waiting.splice(0)) w.reject(err);
+      })
+      .finally(() => {
+        pool.running = undefined;
+        // Calls that arrived in between start the next round.
+        if (pool.waiting.length > 0 || pool.giveBackAsked) this.run(pool);
+      });
+  }
+
+  private async work(pool: KeyDayPool): Promise<void> {
+    for (;;) {
+      if (pool.waiting.length > 0) {
+        await this.leaseFor(pool);
+      } else if (pool.giveBackAsked) {
+        pool.giveBackAsked = false;
+        await this.giveBack(pool);
+      } else {
+        return;
+      }
+    }
+  }
+
+  /** One lease for the calls waiting in the pool, then their decisions. */
+  private async leaseFor(pool: KeyDayPool): Promise<void> {
+    const group = pool.waiting.splice(0, MAX_GROUP);
+    const nowMs = Date.now();
+    if (!pool.hitsValid(nowMs)) pool.hits = 0; // a past window's hits are void
+    let units = 0;
+    let hits = 0;
+    for (const w of group) {
+      units += w.call.units;
+      if (w.call.burst) hits += 1;
+    }
+    const extra = pool.extra(nowMs);
+    let grant: LeaseGrant;
+    try {
+      grant = await leaseKeyUnits(this.db, {
+        instanceId: this.instanceId,
+        keyId: pool.keyId,
+        day: pool.day,
+        needUnits: Math.max(0, units - pool.units),
+        needHits: Math.max(0, hits - pool.hits),
+        // Topped up to the advance target, never beyond: what is left over after the group counts.
+        extraUnits: Math.max(0, extra.units - Math.max(0, pool.units - units)),
+        extraHits: Math.max(0, extra.hits - Math.max(0, pool.hits - hits)),
+        unspent: pool.units,
+        burst: group[0]!.call.burst,
+      });
+    } catch (err) {
+      for (const w of group) w.reject(err);
+      return;
+    }
+    pool.units += grant.units;
+    pool.leased = true;
+    pool.reportedUnits = pool.units;
+    pool.reportedAtMs = Date.now();
+    pool.used = grant.used;
+    pool.quota = grant.quota;
+    pool.warned80 = grant.warned80;
+    pool.warned100 = grant.warned100;
+    if (grant.burst) {
+      if (pool.resetAt?.getTime() !== grant.burst.resetAt.getTime()) pool.hits = 0;
+      pool.hits += grant.hits;
+      pool.resetAt = grant.burst.resetAt;
+      pool.burstLimit = grant.burst.limit;
+      pool.burstHits = grant.burst.hits;
+    }
+    const refused: Waiting[] = [];
+    for (const w of group) {
+      const decided = this.admit(pool, w.call, Date.now());
+      if (decided) w.resolve(decided);
+      else refused.push(w);
+    }
+    if (refused.length === 0) return;
+    if (grant.holders > 0 && refused.some((w) => !w.reclaimed)) {
+      for (const w of refused) w.reclaimed = true;
+      await this.reclaim(pool, grant.holders);
+      pool.waiting.unshift(...refused);
+      return;
+    }
+    const nowAfter = Date.now();
+    for (const w of refused) {
+      const noHit = w.call.burst !== undefined && !(pool.hits >= 1 && pool.hitsValid(nowAfter));
+      w.resolve(this.decision(pool, false, noHit ? 'burst' : 'quota'));
+    }
+  }
+
+  /** Asks the other processes holding units of this key and day to give them back, and waits for them. */
+  private async reclaim(pool: KeyDayPool, holders: number): Promise<void> {
+    const id = `${pool.keyId}/${pool.day}`;
+    const answered = new Set<string>();
+    let heard!: (from: string) => void;
+    const done = new Promise<void>((resolve) => {
+      const timer = setTimeout(resolve, RECLAIM_WAIT_MS);
+      heard = (from) => {
+        answered.add(from);
+        if (answered.size >= holders) {
+          clearTimeout(timer);
+          resolve();
+        }
+      };
+    });
+    let waits = this.reclaimWaits.get(id);
+    if (!waits) {
+      waits = new Set();
+      this.reclaimWaits.set(id, waits);
+    }
+    waits.add(heard);
+    try {
+      await this.db.execute(sql`select pg_notify(${QUOTA_RECLAIM_CHANNEL}, ${`${id}/${this.instanceId}`})`);
+      await done;
+    } catch (err) {
+      this.logger.warn({ err, keyId: pool.keyId }, 'could not ask other processes for unspent quota units');
+    } finally {
+      waits.delete(heard);
+      if (waits.size === 0) this.reclaimWaits.delete(id);
+    }
+  }
+
+  /** Gives the pool's units back once nothing else runs for it; resolves when that is done. */
+  private async askGiveBack(pool: KeyDayPool): Promise<void> {
+    pool.giveBackAsked = true;
+    if (!pool.running) this.run(pool);
+    while (pool.running) await pool.running;
+  }
+
+  private async giveBack(pool: KeyDayPool): Promise<void> {
+    const nowMs = Date.now();
+    const units = pool.units;
+    const hits = pool.hitsValid(nowMs) ? pool.hits : 0;
+    if (units === 0 && hits === 0 && !pool.leased) return;
+    pool.units = 0;
+    pool.hits = 0;
+    try {
+      await returnKeyLease(this.db, { instanceId: this.instanceId, keyId: pool.keyId, day: pool.day, units, burstRow: pool.burstRow, hits, resetAt: pool.resetAt });
+      pool.leased = false;
+      pool.reportedUnits = 0;
+    } catch (err) {
+      // Still reserved in the database: keep spending them, and try again when idle.
+      pool.units += units;
+      pool.hits += hits;
+      this.logger.warn({ err, keyId: pool.keyId, units }, 'could not give unspent quota units back; keeping them');
+    }
+  }
+
+  private async tick(): Promise<void> {
+    const nowMs = Date.now();
+    const today = utcDay(new Date(nowMs));
+    for (const [id, pool] of this.pools) {
+      if (pool.running || pool.waiting.length > 0) continue;
+      const idleMs = nowMs - pool.lastUseMs;
+      const holding = pool.units > 0 || (pool.hits > 0 && pool.hitsValid(nowMs));
+      if (holding && (idleMs >= IDLE_RETURN_MS || pool.day !== today)) void this.askGiveBack(pool);
+      else if (!holding && !pool.leased && idleMs >= FORGET_MS) this.pools.delete(id);
+    }
+    await this.flush().catch(() => {});
+  }
+
+  /** One flush: the one that failed last time first (same number), else what has been collected. */
+  private async flushOnce(): Promise<void> {
+    if (!this.pendingFlush) {
+      const nowMs = Date.now();
+      const leases: { keyId: string; day: string; units: number }[] = [];
+      for (const pool of this.pools.values()) {
+        if (!pool.leased) continue;
+        // Rows must show units that were spent meanwhile, and stay fresh while they hold some.
+        if (pool.units !== pool.reportedUnits || (pool.units > 0 && nowMs - pool.reportedAtMs >= 2 * USAGE_FLUSH_MS)) {
+          leases.push({ keyId: pool.keyId, day: pool.day, units: pool.units });
+          pool.reportedUnits = pool.units;
+          pool.reportedAtMs = nowMs;
+        }
+      }
+      const usage = this.usage.drain();
+      if (usage.length === 0 && leases.length === 0) return;
+      this.pendingFlush = { seq: ++this.seq, usage, leases };
+    }
+    const flush = this.pendingFlush;
+    try {
+      await flushKeyUsage(this.db, { instanceId: this.instanceId, ...flush });
+      this.pendingFlush = undefined;
+    } catch (err) {
+      this.logger.warn({ err, rows: flush.usage.length }, 'could not write usage records; keeping them for the next flush');
+    }
+  }
+}
