@@ -83,20 +83,23 @@ END
 $$;
 --> statement-breakpoint
 -- Gives unspent reserved units (and per-minute hits, while their window is still the same one) back,
--- forgets the process's lease row and tells whoever asked for them.
+-- forgets the process's lease row and tells whoever asked for them. Applied only while the lease row
+-- exists: a return sent again after a lost answer changes nothing the second time.
 CREATE OR REPLACE FUNCTION gammaline_return_lease(
   p_instance uuid, p_key uuid, p_day date, p_units integer, p_burst_row text, p_hits integer, p_reset_at timestamptz
 ) RETURNS void LANGUAGE plpgsql AS $$
 BEGIN
-  IF p_units > 0 THEN
-    UPDATE key_quota_days q SET used = greatest(0, q.used - p_units) WHERE q.key_id = p_key AND q.day = p_day;
-  END IF;
-  IF p_burst_row IS NOT NULL AND p_hits > 0 AND p_reset_at IS NOT NULL THEN
-    UPDATE rate_limit_hits r SET hits = greatest(0, r.hits - p_hits)
-      WHERE r.key = p_burst_row AND r.reset_at BETWEEN p_reset_at - interval '1 millisecond' AND p_reset_at + interval '1 millisecond';
-  END IF;
   DELETE FROM quota_leases l WHERE l.instance_id = p_instance AND l.key_id = p_key AND l.day = p_day;
-  PERFORM pg_notify('gammaline_quota_returned', p_key::text || '/' || p_day::text || '/' || p_instance::text);
+  IF FOUND THEN
+    IF p_units > 0 THEN
+      UPDATE key_quota_days q SET used = greatest(0, q.used - p_units) WHERE q.key_id = p_key AND q.day = p_day;
+    END IF;
+    IF p_burst_row IS NOT NULL AND p_hits > 0 AND p_reset_at IS NOT NULL THEN
+      UPDATE rate_limit_hits r SET hits = greatest(0, r.hits - p_hits)
+        WHERE r.key = p_burst_row AND r.reset_at BETWEEN p_reset_at - interval '1 millisecond' AND p_reset_at + interval '1 millisecond';
+    END IF;
+  END IF;
+  PERFORM pg_notify('gammaline_quota_returned', p_key::text || '/' || to_char(p_day, 'YYYY-MM-DD') || '/' || p_instance::text);
 END
 $$;
 --> statement-breakpoint

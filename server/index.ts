@@ -12,6 +12,7 @@ import { seedDemo } from './db/seed.ts';
 import { startMailCapture, type MailCapture } from './mail/capture.ts';
 import { createMailer } from './mail/mailer.ts';
 import { pruneRateLimitHits } from './quota/pg-rate-limit-store.ts';
+import { pruneQuotaBookkeeping } from './quota/quota.repository.ts';
 
 // `WORKERS=n` (default 1) runs n server processes sharing the port (node:cluster). The primary
 // migrates and seeds once, runs the local mail capture and the pruning timer, forks the workers,
@@ -67,9 +68,10 @@ function answerNotReady(req: IncomingMessage, res: ServerResponse): void {
 }
 
 function startPruning(database: Database, logger: Logger): NodeJS.Timeout {
-  // Ended rate-limit windows are swept every 15 minutes; a failure only means a bigger sweep next time.
+  // Ended rate-limit windows and old lease bookkeeping are swept every 15 minutes; a failure only means a bigger sweep next time.
   return setInterval(() => {
     pruneRateLimitHits(database.pool).catch((err: unknown) => logger.warn({ err }, 'could not prune rate-limit windows'));
+    pruneQuotaBookkeeping(database.db).catch((err: unknown) => logger.warn({ err }, 'could not prune quota lease bookkeeping'));
   }, 15 * 60 * 1000).unref();
 }
 

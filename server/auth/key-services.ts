@@ -40,9 +40,16 @@ export function keyServicesFor(database: Database, logger: Logger): KeyServices 
       if (payload.startsWith('key:')) void leases.giveBackKey(payload.slice(4));
     },
     other: { channels: [QUOTA_RECLAIM_CHANNEL, QUOTA_RETURNED_CHANNEL], notified: (channel, payload) => leases.notified(channel, payload) },
-    // Anything announced while the connection was down is unknown: start from an empty cache.
-    connected: () => cache.clear(),
-    lost: () => cache.clear(),
+    // Anything announced while the connection was down is unknown: start from an empty cache, and give
+    // reserved units back so that a quota changed meanwhile applies and nobody waits on us for them.
+    connected: () => {
+      cache.clear();
+      void leases.giveBackAll();
+    },
+    lost: () => {
+      cache.clear();
+      void leases.giveBackAll();
+    },
   }, logger);
   const lastUsed = new LastUsedRecorder(database.db, logger);
   let stopping: Promise<void> | undefined;

@@ -3,7 +3,7 @@ import { sql } from 'drizzle-orm';
 import type { Logger } from 'pino';
 import type { Db } from '../db/client.ts';
 import { utcDay } from './day.ts';
-import { flushKeyUsage, leaseKeyUnits, returnKeyLease, type BufferedUsage, type LeaseGrant } from './quota.repository.ts';
+import { countOtherHolders, flushKeyUsage, leaseKeyUnits, returnKeyLease, type BufferedUsage } from './quota.repository.ts';
 import { UsageBuffer } from './usage-buffer.ts';
 
 /** A process that cannot cover a request asks the others for their unspent units on this channel… */
@@ -59,6 +59,8 @@ interface Waiting {
   reject(err: unknown): void;
   /** Other processes were already asked for units on this call's behalf. */
   reclaimed: boolean;
+  /** Already leased for again because its per-minute window changed during a lease. */
+  windowRetried?: boolean;
 }
 
 /** What this process holds for one key and day. */
@@ -85,6 +87,12 @@ class KeyDayPool {
   /** A lease or a return is running; only one at a time per pool. */
   running: Promise<void> | undefined;
   giveBackAsked = false;
+  /** Resolved when the give-back asked for has run. */
+  giveBackWaiters: (() => void)[] = [];
+  /** A return sent but not confirmed: its units may already be back in the database, so they are never spent again; it is sent again (the database applies it once) before the next lease. */
+  pendingReturn: { units: number; hits: number; resetAt: Date | undefined } | undefined;
+  /** Ends a reclaim wait early (this process was asked to give back meanwhile). */
+  wakeReclaim: (() => void) | undefined;
   lastUseMs = 0;
   needOnlyUntilMs = 0;
   private windowStartMs = 0;
@@ -197,6 +205,17 @@ export class KeyLeases {
     await Promise.all([...this.pools.values()].filter((p) => p.keyId === keyId).map((p) => this.askGiveBack(p)));
   }
 
+  /** Gives every unspent unit back (the change listener reconnected: announcements may have been missed). */
+  async giveBackAll(): Promise<void> {
+    await Promise.all([...this.pools.values()].map((p) => this.askGiveBack(p)));
+  }
+
+  /** Asks other processes holding units of the key and day to give them back, and waits for them (NDJSON blocks). */
+  async reclaimFromOthers(keyId: string, day: string): Promise<void> {
+    const holders = await countOtherHolders(this.db, { instanceId: this.instanceId, keyId, day });
+    if (holders > 0) await this.reclaim(keyId, day, holders, undefined);
+  }
+
   /** A notification on one of the quota channels (delivered by the key-change listener). */
   notified(channel: string, payload: string): void {
     const [keyId, day, from] = payload.split('/');
@@ -206,6 +225,8 @@ export class KeyLeases {
       if (!pool) return;
       pool.needOnlyUntilMs = Date.now() + NEED_ONLY_MS;
       void this.askGiveBack(pool);
+      // Waiting for others' units while holding some of our own would leave both sides waiting.
+      pool.wakeReclaim?.();
     } else if (channel === QUOTA_RETURNED_CHANNEL) {
       for (const heard of this.reclaimWaits.get(`${keyId}/${day}`) ?? []) heard(from);
     }
@@ -257,7 +278,11 @@ export class KeyLeases {
     if (needsHit) pool.hits -= 1;
     pool.noteUse(call.units, nowMs);
     this.usage.add({ organisationId: call.organisationId, userId: call.userId, keyId: call.keyId, endpoint: call.endpoint, day: call.day, units: call.units });
-    return this.decision(pool, true);
+    const decided = this.decision(pool, true);
+    // The call that crosses a threshold claims its warning; later ones need not try again.
+    if (decided.used * 100 >= decided.quota * 80) pool.warned80 = true;
+    if (decided.used >= decided.quota) pool.warned100 = true;
+    return decided;
   }
 
   private decision(pool: KeyDayPool, admitted: boolean, refusedBy?: 'burst' | 'quota'): MeterDecision {
@@ -288,47 +313,58 @@ export class KeyLeases {
 
   private async work(pool: KeyDayPool): Promise<void> {
     for (;;) {
-      if (pool.waiting.length > 0) {
-        await this.leaseFor(pool);
-      } else if (pool.giveBackAsked) {
+      // A give-back goes first: a quota change or another process's reclaim must not wait for a busy key.
+      if (pool.giveBackAsked) {
         pool.giveBackAsked = false;
+        const waiters = pool.giveBackWaiters.splice(0);
         await this.giveBack(pool);
+        for (const done of waiters) done();
+      } else if (pool.waiting.length > 0) {
+        const group = pool.waiting.splice(0, MAX_GROUP);
+        // Whatever goes wrong, no caller of the group is left waiting (a settled one ignores the reject).
+        await this.decide(pool, group).catch((err: unknown) => {
+          for (const w of group) w.reject(err);
+        });
       } else {
         return;
       }
     }
   }
 
-  /** One lease for the calls waiting in the pool, then their decisions. */
-  private async leaseFor(pool: KeyDayPool): Promise<void> {
-    const group = pool.waiting.splice(0, MAX_GROUP);
+  /** Decides a group of waiting calls: from what the pool holds, else after one lease. */
+  private async decide(pool: KeyDayPool, group: Waiting[]): Promise<void> {
     const nowMs = Date.now();
     if (!pool.hitsValid(nowMs)) pool.hits = 0; // a past window's hits are void
+    // In arrival order, what the pool already covers needs no round trip.
+    let first = 0;
+    for (; first < group.length; first++) {
+      const decided = this.admit(pool, group[first]!.call, nowMs);
+      if (!decided) break;
+      group[first]!.resolve(decided);
+    }
+    const short = group.slice(first);
+    if (short.length === 0) return;
+    if (pool.pendingReturn) await this.sendPendingReturn(pool);
     let units = 0;
     let hits = 0;
-    for (const w of group) {
+    for (const w of short) {
       units += w.call.units;
       if (w.call.burst) hits += 1;
     }
     const extra = pool.extra(nowMs);
-    let grant: LeaseGrant;
-    try {
-      grant = await leaseKeyUnits(this.db, {
-        instanceId: this.instanceId,
-        keyId: pool.keyId,
-        day: pool.day,
-        needUnits: Math.max(0, units - pool.units),
-        needHits: Math.max(0, hits - pool.hits),
-        // Topped up to the advance target, never beyond: what is left over after the group counts.
-        extraUnits: Math.max(0, extra.units - Math.max(0, pool.units - units)),
-        extraHits: Math.max(0, extra.hits - Math.max(0, pool.hits - hits)),
-        unspent: pool.units,
-        burst: group[0]!.call.burst,
-      });
-    } catch (err) {
-      for (const w of group) w.reject(err);
-      return;
-    }
+    const windowBefore = pool.resetAt?.getTime();
+    const grant = await leaseKeyUnits(this.db, {
+      instanceId: this.instanceId,
+      keyId: pool.keyId,
+      day: pool.day,
+      needUnits: Math.max(0, units - pool.units),
+      needHits: Math.max(0, hits - pool.hits),
+      // Topped up to the advance target, never beyond: what is left over after the group counts.
+      extraUnits: Math.max(0, extra.units - Math.max(0, pool.units - units)),
+      extraHits: Math.max(0, extra.hits - Math.max(0, pool.hits - hits)),
+      unspent: pool.units,
+      burst: short[0]!.call.burst,
+    });
     pool.units += grant.units;
     pool.leased = true;
     pool.reportedUnits = pool.units;
@@ -337,47 +373,60 @@ export class KeyLeases {
     pool.quota = grant.quota;
     pool.warned80 = grant.warned80;
     pool.warned100 = grant.warned100;
+    let windowChanged = false;
     if (grant.burst) {
-      if (pool.resetAt?.getTime() !== grant.burst.resetAt.getTime()) pool.hits = 0;
+      windowChanged = windowBefore !== grant.burst.resetAt.getTime();
+      if (windowChanged) pool.hits = 0;
       pool.hits += grant.hits;
       pool.resetAt = grant.burst.resetAt;
       pool.burstLimit = grant.burst.limit;
       pool.burstHits = grant.burst.hits;
     }
     const refused: Waiting[] = [];
-    for (const w of group) {
+    for (const w of short) {
       const decided = this.admit(pool, w.call, Date.now());
       if (decided) w.resolve(decided);
       else refused.push(w);
     }
     if (refused.length === 0) return;
-    if (grant.holders > 0 && refused.some((w) => !w.reclaimed)) {
-      for (const w of refused) w.reclaimed = true;
-      await this.reclaim(pool, grant.holders);
-      pool.waiting.unshift(...refused);
-      return;
-    }
     const nowAfter = Date.now();
+    const noHit = (w: Waiting) => w.call.burst !== undefined && !(pool.hits >= 1 && pool.hitsValid(nowAfter));
+    const again: Waiting[] = [];
+    const final: Waiting[] = [];
+    const askOthers = grant.holders > 0 && refused.some((w) => !w.reclaimed);
     for (const w of refused) {
-      const noHit = w.call.burst !== undefined && !(pool.hits >= 1 && pool.hitsValid(nowAfter));
-      w.resolve(this.decision(pool, false, noHit ? 'burst' : 'quota'));
+      if (askOthers && !w.reclaimed) {
+        w.reclaimed = true;
+        again.push(w);
+      } else if (windowChanged && noHit(w) && !w.windowRetried) {
+        // The window turned over between our clock and the database's: the hits we counted on were void.
+        w.windowRetried = true;
+        again.push(w);
+      } else {
+        final.push(w);
+      }
     }
+    for (const w of final) w.resolve(this.decision(pool, false, noHit(w) ? 'burst' : 'quota'));
+    // Units that could not cover a refused call are not kept for nobody: they go back (and to other processes).
+    if (final.some((w) => !noHit(w)) && pool.units > 0) pool.giveBackAsked = true;
+    if (again.length === 0) return;
+    if (askOthers) await this.reclaim(pool.keyId, pool.day, grant.holders, pool);
+    pool.waiting.unshift(...again);
   }
 
   /** Asks the other processes holding units of this key and day to give them back, and waits for them. */
-  private async reclaim(pool: KeyDayPool, holders: number): Promise<void> {
-    const id = `${pool.keyId}/${pool.day}`;
+  private async reclaim(keyId: string, day: string, holders: number, pool: KeyDayPool | undefined): Promise<void> {
+    const id = `${keyId}/${day}`;
     const answered = new Set<string>();
     let heard!: (from: string) => void;
+    let timer: NodeJS.Timeout | undefined;
     const done = new Promise<void>((resolve) => {
-      const timer = setTimeout(resolve, RECLAIM_WAIT_MS);
+      timer = setTimeout(resolve, RECLAIM_WAIT_MS);
       heard = (from) => {
         answered.add(from);
-        if (answered.size >= holders) {
-          clearTimeout(timer);
-          resolve();
-        }
+        if (answered.size >= holders) resolve();
       };
+      if (pool) pool.wakeReclaim = resolve;
     });
     let waits = this.reclaimWaits.get(id);
     if (!waits) {
@@ -389,37 +438,48 @@ export class KeyLeases {
       await this.db.execute(sql`select pg_notify(${QUOTA_RECLAIM_CHANNEL}, ${`${id}/${this.instanceId}`})`);
       await done;
     } catch (err) {
-      this.logger.warn({ err, keyId: pool.keyId }, 'could not ask other processes for unspent quota units');
+      this.logger.warn({ err, keyId }, 'could not ask other processes for unspent quota units');
     } finally {
+      clearTimeout(timer);
+      if (pool) pool.wakeReclaim = undefined;
       waits.delete(heard);
       if (waits.size === 0) this.reclaimWaits.delete(id);
     }
   }
 
-  /** Gives the pool's units back once nothing else runs for it; resolves when that is done. */
-  private async askGiveBack(pool: KeyDayPool): Promise<void> {
-    pool.giveBackAsked = true;
-    if (!pool.running) this.run(pool);
-    while (pool.running) await pool.running;
+  /** Gives the pool's units back as soon as the pool is free (before any further lease); resolves when done. */
+  private askGiveBack(pool: KeyDayPool): Promise<void> {
+    return new Promise<void>((resolve) => {
+      pool.giveBackAsked = true;
+      pool.giveBackWaiters.push(resolve);
+      if (!pool.running) this.run(pool);
+    });
   }
 
   private async giveBack(pool: KeyDayPool): Promise<void> {
-    const nowMs = Date.now();
-    const units = pool.units;
-    const hits = pool.hitsValid(nowMs) ? pool.hits : 0;
-    if (units === 0 && hits === 0 && !pool.leased) return;
-    pool.units = 0;
-    pool.hits = 0;
-    try {
-      await returnKeyLease(this.db, { instanceId: this.instanceId, keyId: pool.keyId, day: pool.day, units, burstRow: pool.burstRow, hits, resetAt: pool.resetAt });
-      pool.leased = false;
-      pool.reportedUnits = 0;
-    } catch (err) {
-      // Still reserved in the database: keep spending them, and try again when idle.
-      pool.units += units;
-      pool.hits += hits;
-      this.logger.warn({ err, keyId: pool.keyId, units }, 'could not give unspent quota units back; keeping them');
+    if (!pool.pendingReturn) {
+      const units = pool.units;
+      const hits = pool.hitsValid(Date.now()) ? pool.hits : 0;
+      if (units === 0 && hits === 0 && !pool.leased) return;
+      pool.units = 0;
+      pool.hits = 0;
+      pool.pendingReturn = { units, hits, resetAt: pool.resetAt };
     }
+    try {
+      await this.sendPendingReturn(pool);
+    } catch (err) {
+      // Maybe applied, maybe not: the same return goes again before the next lease, and at the next tick.
+      this.logger.warn({ err, keyId: pool.keyId, units: pool.pendingReturn?.units }, 'could not give unspent quota units back; trying again');
+    }
+  }
+
+  /** Sends the pending return; the database applies it only while this process's lease row exists, so once. */
+  private async sendPendingReturn(pool: KeyDayPool): Promise<void> {
+    const r = pool.pendingReturn!;
+    await returnKeyLease(this.db, { instanceId: this.instanceId, keyId: pool.keyId, day: pool.day, units: r.units, burstRow: pool.burstRow, hits: r.hits, resetAt: r.resetAt });
+    pool.pendingReturn = undefined;
+    pool.leased = false;
+    pool.reportedUnits = 0;
   }
 
   private async tick(): Promise<void> {
@@ -429,7 +489,7 @@ export class KeyLeases {
       if (pool.running || pool.waiting.length > 0) continue;
       const idleMs = nowMs - pool.lastUseMs;
       const holding = pool.units > 0 || (pool.hits > 0 && pool.hitsValid(nowMs));
-      if (holding && (idleMs >= IDLE_RETURN_MS || pool.day !== today)) void this.askGiveBack(pool);
+      if (pool.pendingReturn || (holding && (idleMs >= IDLE_RETURN_MS || pool.day !== today))) void this.askGiveBack(pool);
       else if (!holding && !pool.leased && idleMs >= FORGET_MS) this.pools.delete(id);
     }
     await this.flush().catch(() => {});
@@ -449,7 +509,9 @@ export class KeyLeases {
           pool.reportedAtMs = nowMs;
         }
       }
-      const usage = this.usage.drain();
+      // One order for every process, so concurrent flushes lock rows in the same order (no deadlocks).
+      const usage = this.usage.drain().sort((a, b) => compare(a.keyId, b.keyId) || compare(a.endpoint, b.endpoint) || compare(a.day, b.day));
+      leases.sort((a, b) => compare(a.keyId, b.keyId) || compare(a.day, b.day));
       if (usage.length === 0 && leases.length === 0) return;
       this.pendingFlush = { seq: ++this.seq, usage, leases };
     }
@@ -462,3 +524,5 @@ export class KeyLeases {
     }
   }
 }
+
+const compare = (a: string, b: string): number => (a < b ? -1 : a > b ? 1 : 0);

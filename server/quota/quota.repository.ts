@@ -185,7 +185,25 @@ export async function leaseKeyUnits(db: Db, a: LeaseAsk): Promise<LeaseGrant> {
   };
 }
 
-/** Gives unspent reserved units (and hits of a still-current window) back and drops the lease row. */
+/** Other live processes holding unspent units of a key and day (the holders a reclaim asks). */
+export async function countOtherHolders(db: Db, h: { instanceId: string; keyId: string; day: string }): Promise<number> {
+  const result = await db.execute<{ n: number }>(sql`
+    select count(*)::int as n from quota_leases l
+    where l.key_id = ${h.keyId}::uuid and l.day = ${h.day}::date and l.instance_id <> ${h.instanceId}::uuid
+      and l.units > 0 and l.updated_at > now() - interval '5 seconds'`);
+  return Number(result.rows[0]!.n);
+}
+
+/**
+ * Bookkeeping of quota leases that nobody needs any more: lease rows of past days (a process that
+ * died keeps its row) and the flush numbers of processes not heard from for two days.
+ */
+export async function pruneQuotaBookkeeping(db: Db): Promise<void> {
+  await db.execute(sql`delete from quota_leases where day < current_date - 1`);
+  await db.execute(sql`delete from usage_flushes where updated_at < now() - interval '2 days'`);
+}
+
+/** Gives unspent reserved units (and hits of a still-current window) back and drops the lease row (once: see drizzle/0005). */
 export async function returnKeyLease(
   db: Db,
   r: { instanceId: string; keyId: string; day: string; units: number; burstRow?: string; hits: number; resetAt?: Date },

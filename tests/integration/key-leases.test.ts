@@ -5,6 +5,7 @@ import { createKey } from '../../server/api/v1/keys/keys.service.ts';
 import { keyServicesFor, type KeyServices } from '../../server/auth/key-services.ts';
 import { openDatabase, type Database } from '../../server/db/client.ts';
 import { KeyLeases, MAX_PREFETCH, type MeteredCall } from '../../server/quota/key-leases.ts';
+import { leaseKeyUnits, returnKeyLease } from '../../server/quota/quota.repository.ts';
 import { createTestApp, type TestApp } from '../helpers/app.ts';
 
 // Quota leases (server/quota/key-leases.ts): units reserved in blocks and spent in memory. What must hold
@@ -130,6 +131,17 @@ describe('quota leases', () => {
     expect(decisions.filter((d) => d.refusedBy === 'burst')).toHaveLength(80);
     await Promise.all([a.leases.settle(), b.leases.settle()]);
     expect((await dbState(keyId)).used).toBe(50);
+  });
+
+  it('apply a return once, even when it is sent again after its answer was lost', async () => {
+    const keyId = await newKey('return twice', 1_000);
+    const instanceId = '00000000-0000-4000-8000-00000000abcd';
+    const grant = await leaseKeyUnits(ctx.database.db, { instanceId, keyId, day: DAY, needUnits: 40, needHits: 0, extraUnits: 0, extraHits: 0, unspent: 0 });
+    expect(grant.units).toBe(40);
+    const giveBack = { instanceId, keyId, day: DAY, units: 40, hits: 0 };
+    await returnKeyLease(ctx.database.db, giveBack);
+    await returnKeyLease(ctx.database.db, giveBack);
+    expect(await dbState(keyId)).toEqual({ used: 0, usage: 0, leased: 0 });
   });
 
   it('lose at most the reservation of a process that dies, and never overspend because of it', async () => {

@@ -39,9 +39,11 @@ export async function chargeUnits(ctx: AppContext, res: Response, endpoint: stri
       return ask;
     }
     ask = Math.min(ask, key.dailyQuota - spent.used);
-    // Units this process holds for single calls of the key go back first, so the stream can use them.
+    // Units held for single calls of the key, here and in other processes, go back first, so the stream can use them.
     if (attempt === 0) {
-      await keyServicesFor(ctx.database, ctx.logger).leases.giveBackKey(key.id);
+      const leases = keyServicesFor(ctx.database, ctx.logger).leases;
+      await leases.giveBackKey(key.id);
+      await leases.reclaimFromOthers(key.id, day);
       ask = wanted;
     }
   }
