@@ -45,6 +45,9 @@ export function createApp(deps: AppDependencies): Express {
   };
   const app = express();
   app.disable('x-powered-by');
+  // ETags only cost a hash of every body here: calculation answers are POST responses, which no cache
+  // revalidates, and account data is read fresh by design. Static console files keep their own.
+  app.set('etag', false);
   // Behind a reverse proxy, client addresses (sign-in throttling) and https (Secure cookies) come from its headers.
   if (deps.config.trustProxy > 0) app.set('trust proxy', deps.config.trustProxy);
 
@@ -70,13 +73,16 @@ export function createApp(deps: AppDependencies): Express {
   // POST /api/v1/batch reads its own body: a larger JSON limit for that route alone, and NDJSON streamed unbuffered.
   app.use((req, res, next) => (OWN_BODY_PATH.test(req.path) ? next() : jsonBody(req, res, next)));
 
-  app.use(healthRouter(ctx));
-  app.get('/api/v1/openapi.json', (_req, res) => {
+  // The API first: calculations are the hot path, so they pass as few layers as possible.
+  const api = express.Router();
+  api.get('/openapi.json', (_req, res) => {
     res.json(openApiDocument());
   });
   // Only the API reads the console session; static files and docs never touch the session table.
-  app.use('/api/v1', sessionMiddleware(ctx));
-  app.use('/api/v1', v1Router(ctx));
+  api.use(sessionMiddleware(ctx));
+  api.use(v1Router(ctx));
+  app.use('/api/v1', api);
+  app.use(healthRouter(ctx));
   app.use('/api', notFoundHandler);
   app.use('/docs', swaggerUi.serve, swaggerUi.setup(openApiDocument(), { customSiteTitle: 'Gammaline API reference' }));
 

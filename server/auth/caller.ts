@@ -13,7 +13,7 @@ import type { MeterDecision } from '../quota/key-leases.ts';
 import { hashApiKey, looksLikeApiKey } from './api-key.ts';
 import { keyServicesFor } from './key-services.ts';
 import { csrfSatisfied } from './session.ts';
-import { verifyApiKeyHash, type KeyVerification } from './verify-key.ts';
+import { verifyApiKeyHash, type KeyVerification, type VerifiedKey } from './verify-key.ts';
 
 /** Who is calling: a key (integrations) or a signed-in console session. */
 export type Caller = {
@@ -80,11 +80,7 @@ async function callerFromKey(ctx: AppContext, req: Request, res: Response, heade
   }
   const k = verified.key;
   keyServicesFor(ctx.database, ctx.logger).lastUsed.touch(k.keyId, now);
-  res.locals.callerLimits = {
-    burstPerMinute: k.burstPerMinute,
-    key: { id: k.keyId, name: k.name, displayStart: k.displayStart, dailyQuota: k.dailyQuota, ownerEmail: k.ownerEmail },
-  };
-  return { kind: 'key', userId: k.userId, organisationId: k.organisationId, role: k.role, keyId: k.keyId };
+  return callerFromVerifiedKey(res, k);
 }
 
 async function callerFromSession(ctx: AppContext, req: Request, res: Response): Promise<Caller | undefined> {
@@ -119,13 +115,43 @@ async function callerFromSession(ctx: AppContext, req: Request, res: Response): 
  * A Bearer header wins over a cookie and needs no CSRF token (browsers never add it on their own).
  */
 export function requireCaller(ctx: AppContext): RequestHandler {
-  return async (req, res, next) => {
-    const header = req.get('authorization');
-    const caller = header !== undefined ? await callerFromKey(ctx, req, res, header) : await callerFromSession(ctx, req, res);
-    if (!caller) throw unauthenticated();
-    res.locals.caller = caller;
-    next();
+  return (req, res, next) => {
+    const header = req.headers.authorization;
+    // A key verified moments ago is taken from the cache without a promise: the hot path of integrations.
+    const cached = header !== undefined ? cachedCaller(ctx, res, header) : undefined;
+    if (cached) {
+      res.locals.caller = cached;
+      next();
+      return;
+    }
+    (header !== undefined ? callerFromKey(ctx, req, res, header) : callerFromSession(ctx, req, res)).then((caller) => {
+      if (!caller) throw unauthenticated();
+      res.locals.caller = caller;
+      next();
+    }, next).catch(next);
   };
+}
+
+/** The caller of a Bearer key found in the verified-key cache, or undefined (then the full check runs). */
+function cachedCaller(ctx: AppContext, res: Response, header: string): Caller | undefined {
+  const match = /^Bearer[ ]+(\S+)\s*$/i.exec(header);
+  const presented = match?.[1];
+  if (!presented || !looksLikeApiKey(presented)) return undefined;
+  const services = keyServicesFor(ctx.database, ctx.logger);
+  if (!services.cacheUsable()) return undefined;
+  const now = ctx.clock.now();
+  const k = services.cache.get(hashApiKey(presented), now);
+  if (!k) return undefined;
+  services.lastUsed.touch(k.keyId, now);
+  return callerFromVerifiedKey(res, k);
+}
+
+function callerFromVerifiedKey(res: Response, k: VerifiedKey): Caller {
+  res.locals.callerLimits = {
+    burstPerMinute: k.burstPerMinute,
+    key: { id: k.keyId, name: k.name, displayStart: k.displayStart, dailyQuota: k.dailyQuota, ownerEmail: k.ownerEmail },
+  };
+  return { kind: 'key', userId: k.userId, organisationId: k.organisationId, role: k.role, keyId: k.keyId };
 }
 
 /**
@@ -250,11 +276,16 @@ function applyKeyDecision(
 ): void {
   const { key, burstKey, units, now, day } = c;
   const burst = decision.burst;
+  // Each field is set once with its items joined (RFC 9651 lists), not appended item by item.
+  let limit = '';
+  let policy = '';
   if (burst) {
     const burstResetS = Math.max(0, Math.ceil((burst.resetAt.getTime() - Date.now()) / 1000));
-    res.append('RateLimit', `"burst"; r=${Math.max(0, burst.limit - burst.totalHits)}; t=${burstResetS}`);
-    res.append('RateLimit-Policy', `"burst"; q=${burst.limit}; w=${BURST_WINDOW_MS / 1000}; pk=:${partitionKey(burstKey)}:`);
+    limit = `"burst"; r=${Math.max(0, burst.limit - burst.totalHits)}; t=${burstResetS}`;
+    policy = `"burst"; q=${burst.limit}; w=${BURST_WINDOW_MS / 1000}; pk=:${partitionKey(burstKey)}:`;
     if (decision.refusedBy === 'burst') {
+      res.setHeader('RateLimit', limit);
+      res.setHeader('RateLimit-Policy', policy);
       const waitS = Math.max(1, burstResetS);
       throw new ApiError('tooManyRequests', `More than ${burst.limit} requests in a minute; wait ${waitS} s (Retry-After) or spread the calls out.`, {
         headers: { 'Retry-After': String(waitS) },
@@ -264,8 +295,8 @@ function applyKeyDecision(
   const quota = decision.quota;
   const resetS = secondsUntilUtcMidnight(now);
   const remaining = Math.max(0, quota - decision.used);
-  res.append('RateLimit-Policy', `"daily"; q=${quota}; w=${SECONDS_PER_DAY}`);
-  res.append('RateLimit', `"daily"; r=${remaining}; t=${resetS}`);
+  res.setHeader('RateLimit', `${limit ? `${limit}, ` : ''}"daily"; r=${remaining}; t=${resetS}`);
+  res.setHeader('RateLimit-Policy', `${policy ? `${policy}, ` : ''}"daily"; q=${quota}; w=${SECONDS_PER_DAY}`);
   if (!decision.admitted) {
     const need = units > 1 ? ` This request needs ${units} units and ${remaining} remain.` : '';
     throw new ApiError(
