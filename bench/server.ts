@@ -1,5 +1,5 @@
-// The server under test for `npm run bench`: the real app, plus two reference routes in the same
-// process so that ratios compare like with like (same Express, same JSON, same machine).
+// The server under test for `npm run bench`: the real app, plus reference routes in the same app
+// so that ratios compare like with like (same Express, same JSON, same machine).
 import { createServer } from 'node:http';
 import express from 'express';
 import { pino } from 'pino';
@@ -9,24 +9,28 @@ import { openDatabase } from '../server/db/client.ts';
 
 const config = loadConfig({ ...process.env, LOG_LEVEL: 'silent', PORT: '0' });
 const database = openDatabase(config.databaseUrl, { max: 20 });
-const app = createApp({ database, config, logger: pino({ level: 'silent' }) });
+// The reference routes go first in the API's own app: same Express, same settings, none of the
+// API's middleware, and no extra sub-app hop on either side.
+const app = createApp({
+  database,
+  config,
+  logger: pino({ level: 'silent' }),
+  first: (outer) => {
+    // P1's ceiling: a bare JSON route, body parsed and a small JSON answer.
+    outer.post('/bench/bare', express.json(), (_req, res) => {
+      res.json({ ok: true });
+    });
+    // P2's ceiling: parse the batch payload and echo it back.
+    outer.post('/bench/echo', express.json({ limit: '64mb' }), (req, res) => {
+      res.json(req.body);
+    });
+    outer.get('/bench/memory', (_req, res) => {
+      res.json({ rssBytes: process.memoryUsage().rss, maxRssBytes: process.resourceUsage().maxRSS * 1024 });
+    });
+  },
+});
 
-const outer = express();
-outer.disable('x-powered-by');
-// P1's ceiling: a bare JSON route, body parsed and a small JSON answer.
-outer.post('/bench/bare', express.json(), (_req, res) => {
-  res.json({ ok: true });
-});
-// P2's ceiling: parse the batch payload and echo it back.
-outer.post('/bench/echo', express.json({ limit: '64mb' }), (req, res) => {
-  res.json(req.body);
-});
-outer.get('/bench/memory', (_req, res) => {
-  res.json({ rssBytes: process.memoryUsage().rss, maxRssBytes: process.resourceUsage().maxRSS * 1024 });
-});
-outer.use(app);
-
-const server = createServer(outer);
+const server = createServer(app);
 server.keepAliveTimeout = 30_000;
 server.listen(0, '127.0.0.1', () => {
   const address = server.address();

@@ -26,6 +26,8 @@ export interface AppDependencies {
   logger?: Logger;
   /** Outgoing mail; index.ts passes SMTP_URL's or the local capture server's. Without one, mail is logged and dropped. */
   mailer?: Mailer;
+  /** Routes mounted before everything else (the benchmark's reference routes, in the same app as the API). */
+  first?: (app: Express) => void;
 }
 
 /** Routes that parse their own body (see server/api/v1/batch). */
@@ -50,6 +52,7 @@ export function createApp(deps: AppDependencies): Express {
   app.set('etag', false);
   // Behind a reverse proxy, client addresses (sign-in throttling) and https (Secure cookies) come from its headers.
   if (deps.config.trustProxy > 0) app.set('trust proxy', deps.config.trustProxy);
+  deps.first?.(app);
 
   app.use(requestLog(app, logger));
   // Local mode is plain HTTP on loopback (or a LAN address): forcing HTTPS there would break the console.

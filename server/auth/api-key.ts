@@ -32,8 +32,24 @@ export function generateApiKey(): NewApiKey {
  * nothing to brute-force, and a fast hash keeps the per-request lookup cheap.
  */
 export function hashApiKey(key: string): string {
-  return createHash('sha256').update(key, 'utf8').digest('hex');
+  let hash = recentHashes.get(key);
+  if (hash === undefined) {
+    hash = createHash('sha256').update(key, 'utf8').digest('hex');
+    if (recentHashes.size >= RECENT_HASHES_MAX) recentHashes.clear();
+    recentHashes.set(key, hash);
+  }
+  return hash;
 }
+
+/**
+ * Hashes of keys presented in the last few seconds: a SHA-256 per request is a measurable share of a
+ * calculation's cost. Entries live at most RECENT_HASHES_MS (the map is emptied on that beat) and only
+ * in this process's memory, where each request's key already is while it is handled; never stored or logged.
+ */
+const recentHashes = new Map<string, string>();
+const RECENT_HASHES_MAX = 10_000;
+const RECENT_HASHES_MS = 10_000;
+setInterval(() => recentHashes.clear(), RECENT_HASHES_MS).unref();
 
 /** The cheap format check done before any database lookup. */
 export function looksLikeApiKey(value: string): boolean {

@@ -264,8 +264,9 @@ function meterKey(ctx: AppContext, endpoint: string, units: number, res: Respons
     units,
     burst: { row: `burst:${burstKey}`, windowMs: BURST_WINDOW_MS },
   });
-  const apply = (decision: MeterDecision) => applyKeyDecision(ctx, res, { organisationId: caller.organisationId, key, burstKey, units, now, day }, decision);
-  return decided instanceof Promise ? decided.then(apply) : apply(decided);
+  const call = { organisationId: caller.organisationId, key, burstKey, units, now, day };
+  if (decided instanceof Promise) return decided.then((decision) => applyKeyDecision(ctx, res, call, decision));
+  applyKeyDecision(ctx, res, call, decided);
 }
 
 function applyKeyDecision(

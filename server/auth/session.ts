@@ -52,7 +52,7 @@ export function sessionMiddleware(ctx: AppContext): RequestHandler {
   // keys), so it skips the session machinery: no session object, no end-of-response hooks. Sign-in
   // (POST /session, relative to the /api/v1 mount) creates one whatever headers come with it.
   return (req, res, next) => {
-    if (req.headers.cookie === undefined && BEARER.test(req.headers.authorization ?? '') && !SIGN_IN_PATH.test(req.path)) {
+    if (req.headers.cookie === undefined && BEARER.test(req.headers.authorization ?? '') && !(req.method === 'POST' && SIGN_IN_PATH.test(req.path))) {
       next();
       return;
     }

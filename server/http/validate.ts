@@ -9,7 +9,9 @@ import { apiErrorFromZod } from './zod-issues.ts';
  */
 export function validateBody<S extends z.ZodType>(schema: S): RequestHandler {
   return (req, res, next) => {
-    if (!req.is('application/json')) {
+    const type = req.headers['content-type'];
+    // The common exact form skips the media-type parser; anything else gets the full check.
+    if (type !== 'application/json' && type !== 'application/json; charset=utf-8' && !req.is('application/json')) {
       next(new ApiError('unsupportedMediaType', 'Send the body as JSON with Content-Type: application/json.'));
       return;
     }

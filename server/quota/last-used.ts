@@ -26,7 +26,7 @@ export class LastUsedRecorder {
 
   touch(keyId: string, at: Date): void {
     const before = this.pending.get(keyId);
-    if (!before || before < at) this.pending.set(keyId, at);
+    if (!before || before.getTime() < at.getTime()) this.pending.set(keyId, at);
   }
 
   /** Writes what is pending; a failed write keeps it for the next interval. */

@@ -1,4 +1,4 @@
-import { Router } from 'express';
+import type { Router } from 'express';
 import type { AppContext } from '../../context.ts';
 import { calculationGuard, requireCaller } from '../../auth/caller.ts';
 import { calcRouter } from './calc/calc.routes.ts';
@@ -22,9 +22,9 @@ import { mailRouter } from './mail/mail.routes.ts';
  * when imported and contributes a router here.
  */
 export function v1Router(ctx: AppContext): Router {
-  const router = Router();
-  // Every calculation route needs a key or a console session; metered ones also spend quota.
-  router.use(calcRouter(ctx, { guard: (endpoint, { metered }) => (metered ? calculationGuard(ctx, endpoint) : [requireCaller(ctx)]) }));
+  // Every calculation route needs a key or a console session; metered ones also spend quota. The
+  // calculation routes are the hot path, so they sit in this router itself rather than one level down.
+  const router = calcRouter(ctx, { guard: (endpoint, { metered }) => (metered ? calculationGuard(ctx, endpoint) : [requireCaller(ctx)]) });
   router.use(batchRouter(ctx));
   router.use(cablesRouter(ctx));
   router.use(feedlinesRouter(ctx));

@@ -102,7 +102,10 @@ export function calcRouter(ctx: AppContext, options: { guard?: EndpointGuard; en
   for (const route of CALCULATION_ROUTES) {
     const calc = CALCULATIONS[route.name];
     router.post(route.path, ...guard(route.name, { metered: true }), validateBody(calc.request), env, (_req, res) => {
-      res.json(assertFinite(calc.run(res.locals.body as never, envOf(res))));
+      const body = JSON.stringify(assertFinite(calc.run(res.locals.body as never, envOf(res))));
+      // Straight to the socket: res.json's content negotiation and conversions are not needed here.
+      res.setHeader('Content-Type', 'application/json; charset=utf-8');
+      res.end(body);
     });
   }
 

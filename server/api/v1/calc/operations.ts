@@ -71,7 +71,9 @@ function allFinite(v: unknown): boolean {
 }
 
 function definedOnly<T extends object>(value: T): T {
-  return Object.fromEntries(Object.entries(value).filter(([, v]) => v !== undefined)) as T;
+  const out: Record<string, unknown> = {};
+  for (const k in value) if (value[k] !== undefined) out[k] = value[k];
+  return out as T;
 }
 
 interface Calculation<Req extends z.ZodType, Res extends z.ZodType> {
