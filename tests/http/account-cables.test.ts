@@ -83,6 +83,18 @@ describe('defining cables', () => {
     await api().patch('/api/v1/cables/account-ridge-reel').set(ctx.auth).send({ velocityFactor: 0.8 }).expect(403);
   });
 
+  it('records adding, changing and removing a cable in the audit trail, with who did it', async () => {
+    const id = 'account-audit-reel';
+    await admin.post('/api/v1/cables').send({ ...RIDGE_REEL, id }).expect(201);
+    await admin.patch(`/api/v1/cables/${id}`).send({ velocityFactor: 0.8 }).expect(200);
+    await admin.delete(`/api/v1/cables/${id}`).expect(204);
+    const trail = (await admin.get('/api/v1/audit').expect(200)).body.events as { action: string; targetType: string; actorLabel: string; details: Record<string, unknown> }[];
+    const mine = trail.filter((e) => e.targetType === 'cable' && e.details.cableId === id);
+    expect(mine.map((e) => e.action).sort()).toEqual(['cable.added', 'cable.changed', 'cable.removed']);
+    expect(mine.find((e) => e.action === 'cable.changed')!.details.changed).toEqual(['velocityFactor']);
+    for (const e of mine) expect(e.actorLabel).toBe(ctx.seed.adminEmail);
+  });
+
   it('cannot change or remove a catalog cable', async () => {
     await admin.patch('/api/v1/cables/rg-213').send({ velocityFactor: 0.8 }).expect(400);
     await admin.delete('/api/v1/cables/rg-213').expect(400);

@@ -5199,7 +5199,7 @@ export interface components {
             /** @example admin@kestrel-ridge.example */
             actorLabel: string;
             /**
-             * @description `key.created`, `key.revoked`, `key.quota_changed`, `member.role_changed`, `member.disabled`, `member.enabled`, `member.joined`, `invitation.sent`, `invitation.withdrawn`, `organisation.defaults_changed`.
+             * @description `key.created`, `key.revoked`, `key.quota_changed`, `member.role_changed`, `member.disabled`, `member.enabled`, `member.joined`, `invitation.sent`, `invitation.withdrawn`, `organisation.defaults_changed`, `cable.added`, `cable.changed`, `cable.removed` (account cables).
              * @example key.quota_changed
              */
             action: string;
@@ -5207,7 +5207,7 @@ export interface components {
              * @example key
              * @enum {string}
              */
-            targetType: "key" | "member" | "invitation" | "organisation";
+            targetType: "key" | "member" | "invitation" | "organisation" | "cable";
             /** Format: uuid */
             targetId: string;
             /**

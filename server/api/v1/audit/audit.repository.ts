@@ -20,14 +20,19 @@ export type AuditAction =
   | 'member.joined'
   | 'invitation.sent'
   | 'invitation.withdrawn'
-  | 'organisation.defaults_changed';
+  | 'organisation.defaults_changed'
+  | 'cable.added'
+  | 'cable.changed'
+  | 'cable.removed';
+
+export type AuditTargetType = 'key' | 'member' | 'invitation' | 'organisation' | 'cable';
 
 type DbOrTx = Pick<Db, 'insert' | 'select'>;
 
 /** Adds one event; call it inside the transaction that made the change, so both land or neither. */
 export async function recordAudit(
   db: DbOrTx,
-  e: { organisationId: string; actor: Actor; action: AuditAction; targetType: 'key' | 'member' | 'invitation' | 'organisation'; targetId: string; details?: Record<string, unknown> },
+  e: { organisationId: string; actor: Actor; action: AuditAction; targetType: AuditTargetType; targetId: string; details?: Record<string, unknown> },
 ): Promise<void> {
   await db.insert(auditEvents).values({
     organisationId: e.organisationId,

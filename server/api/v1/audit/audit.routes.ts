@@ -5,15 +5,15 @@ import { authProblems, sessionOnly } from '../../../auth/openapi.ts';
 import { validateQuery } from '../../../http/validate.ts';
 import { problemResponses, registry } from '../../../openapi/registry.ts';
 import { z } from '../../../zod.ts';
-import { listAudit } from './audit.repository.ts';
+import { listAudit, type AuditTargetType } from './audit.repository.ts';
 
 const AuditEventSchema = z
   .object({
     id: z.uuid(),
     actorUserId: z.uuid().nullable().openapi({ description: 'null: an operator at the CLI.' }),
     actorLabel: z.string().openapi({ example: 'admin@kestrel-ridge.example' }),
-    action: z.string().openapi({ description: '`key.created`, `key.revoked`, `key.quota_changed`, `member.role_changed`, `member.disabled`, `member.enabled`, `member.joined`, `invitation.sent`, `invitation.withdrawn`, `organisation.defaults_changed`.', example: 'key.quota_changed' }),
-    targetType: z.enum(['key', 'member', 'invitation', 'organisation']).openapi({ example: 'key' }),
+    action: z.string().openapi({ description: '`key.created`, `key.revoked`, `key.quota_changed`, `member.role_changed`, `member.disabled`, `member.enabled`, `member.joined`, `invitation.sent`, `invitation.withdrawn`, `organisation.defaults_changed`, `cable.added`, `cable.changed`, `cable.removed` (account cables).', example: 'key.quota_changed' }),
+    targetType: z.enum(['key', 'member', 'invitation', 'organisation', 'cable']).openapi({ example: 'key' }),
     targetId: z.uuid(),
     details: z.record(z.string(), z.unknown()).openapi({ example: { before: { dailyQuota: 10000, burstPerMinute: 120 }, after: { dailyQuota: 20000, burstPerMinute: 120 } } }),
     createdAt: z.string().openapi({ example: '2026-03-14T09:31:00.000Z' }),
@@ -46,7 +46,7 @@ export function auditRouter(ctx: AppContext): Router {
         actorUserId: r.actorUserId,
         actorLabel: r.actorLabel,
         action: r.action,
-        targetType: r.targetType as 'key' | 'member' | 'invitation' | 'organisation',
+        targetType: r.targetType as AuditTargetType,
         targetId: r.targetId,
         details: r.details as Record<string, unknown>,
         createdAt: r.createdAt.toISOString(),

@@ -49,34 +49,41 @@ export interface AccountCableValues {
   notes: string;
 }
 
+/** A written cable with its row id (the audit trail's target; never part of an answer). */
+export interface WrittenCable {
+  rowId: string;
+  cable: AccountCable;
+}
+
 /** Inserts a cable; undefined when the organisation already has that id. */
 export async function insertAccountCable(
   db: DbOrTx,
   v: AccountCableValues & { organisationId: string; cableId: string; createdBy: string },
-): Promise<AccountCable | undefined> {
+): Promise<WrittenCable | undefined> {
   const rows = await db.insert(accountCables).values(v).onConflictDoNothing().returning();
-  return rows[0] ? toCable(rows[0]) : undefined;
+  return rows[0] ? { rowId: rows[0].id, cable: toCable(rows[0]) } : undefined;
 }
 
 export async function updateAccountCable(
   db: DbOrTx,
   q: { organisationId: string; cableId: string },
   set: Partial<AccountCableValues>,
-): Promise<AccountCable | undefined> {
+): Promise<WrittenCable | undefined> {
   const rows = await db
     .update(accountCables)
     .set({ ...set, updatedAt: sql`now()` })
     .where(and(eq(accountCables.organisationId, q.organisationId), eq(accountCables.cableId, q.cableId)))
     .returning();
-  return rows[0] ? toCable(rows[0]) : undefined;
+  return rows[0] ? { rowId: rows[0].id, cable: toCable(rows[0]) } : undefined;
 }
 
-export async function deleteAccountCable(db: DbOrTx, q: { organisationId: string; cableId: string }): Promise<boolean> {
+/** Deletes the cable; its row id (for the audit trail), or undefined when there was none. */
+export async function deleteAccountCable(db: DbOrTx, q: { organisationId: string; cableId: string }): Promise<string | undefined> {
   const rows = await db
     .delete(accountCables)
     .where(and(eq(accountCables.organisationId, q.organisationId), eq(accountCables.cableId, q.cableId)))
     .returning({ id: accountCables.id });
-  return rows.length > 0;
+  return rows[0]?.id;
 }
 
 /** Names of the organisation's feed lines with a section on this cable. */

@@ -18,6 +18,8 @@ import { ApiError } from '../../../http/problem.ts';
 import { validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
 import { calculationProblems, problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { assertFinite } from '../calc/operations.ts';
+import { memberActor } from '../members/members.repository.ts';
+import { recordAudit } from '../audit/audit.repository.ts';
 import { deleteAccountCable, feedlinesUsingCable, findAccountCables, insertAccountCable, listAccountCables, updateAccountCable } from './cables.repository.ts';
 
 const tags = ['Cables'];
@@ -171,31 +173,49 @@ export function cablesRouter(ctx: AppContext): Router {
     const caller = callerOf(res);
     const { id, ...values } = res.locals.body as z.infer<typeof CreateAccountCableSchema>;
     const cableId = id ?? accountCableIdFrom(values.designation);
-    const created = await insertAccountCable(db, { ...values, organisationId: caller.organisationId, cableId, createdBy: caller.userId });
+    const actor = await memberActor(db, caller);
+    const created = await db.transaction(async (tx) => {
+      const row = await insertAccountCable(tx, { ...values, organisationId: caller.organisationId, cableId, createdBy: caller.userId });
+      if (row) {
+        await recordAudit(tx, { organisationId: caller.organisationId, actor, action: 'cable.added', targetType: 'cable', targetId: row.rowId, details: { cableId, designation: values.designation } });
+      }
+      return row;
+    });
     if (!created) {
       throw new ApiError('conflict', `Your organisation already has a cable '${cableId}'; choose another id (field id) or change that cable with PATCH /api/v1/cables/${cableId}.`, {
         errors: [{ field: 'id', message: `'${cableId}' is taken` }],
       });
     }
-    res.status(201).json(accountEntry(created));
+    res.status(201).json(accountEntry(created.cable));
   });
 
   router.patch('/cables/:id', ...admin, validateParams(AccountCableIdParamsSchema), validateBody(UpdateAccountCableSchema), async (_req, res) => {
     const { id } = res.locals.params as { id: string };
-    const updated = await updateAccountCable(db, { organisationId: callerOf(res).organisationId, cableId: id }, res.locals.body as z.infer<typeof UpdateAccountCableSchema>);
+    const caller = callerOf(res);
+    const change = res.locals.body as z.infer<typeof UpdateAccountCableSchema>;
+    const actor = await memberActor(db, caller);
+    const updated = await db.transaction(async (tx) => {
+      const row = await updateAccountCable(tx, { organisationId: caller.organisationId, cableId: id }, change);
+      if (row) await recordAudit(tx, { organisationId: caller.organisationId, actor, action: 'cable.changed', targetType: 'cable', targetId: row.rowId, details: { cableId: id, changed: Object.keys(change) } });
+      return row;
+    });
     if (!updated) throw notFound(id);
-    res.json(accountEntry(updated));
+    res.json(accountEntry(updated.cable));
   });
 
   router.delete('/cables/:id', ...admin, validateParams(AccountCableIdParamsSchema), async (_req, res) => {
     const { id } = res.locals.params as { id: string };
-    const scope = { organisationId: callerOf(res).organisationId, cableId: id };
+    const caller = callerOf(res);
+    const scope = { organisationId: caller.organisationId, cableId: id };
+    const actor = await memberActor(db, caller);
     await db.transaction(async (tx) => {
       const users = await feedlinesUsingCable(tx, scope);
       if (users.length > 0) {
         throw new ApiError('conflict', `The cable '${id}' is used by the feed line(s) ${users.map((n) => `"${n}"`).join(', ')}; change their sections first (PATCH /api/v1/feedlines/{id}).`);
       }
-      if (!(await deleteAccountCable(tx, scope))) throw notFound(id);
+      const removed = await deleteAccountCable(tx, scope);
+      if (!removed) throw notFound(id);
+      await recordAudit(tx, { organisationId: caller.organisationId, actor, action: 'cable.removed', targetType: 'cable', targetId: removed, details: { cableId: id } });
     });
     res.status(204).end();
   });
