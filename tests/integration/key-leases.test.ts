@@ -104,6 +104,29 @@ describe('quota leases', () => {
     expect(await dbState(keyId)).toEqual({ used: quota, usage: quota, leased: 0 });
   });
 
+  it('give units back on request even while calls keep coming, so the quota is spent to the last unit', async () => {
+    const quota = 600;
+    const keyId = await newKey('busy holder', quota);
+    const a = await instance();
+    const b = await instance();
+    let spentByA = 0;
+    let aRefused = false;
+    // A keeps calling, one call after another, until it is refused.
+    const busy = (async () => {
+      while (!aRefused) {
+        const d = await a.leases.spend(call(keyId));
+        if (d.admitted) spentByA++;
+        else aRefused = true;
+      }
+    })();
+    await new Promise((r) => setTimeout(r, 50));
+    const spentByB = await spendSequentially(b.leases, keyId, quota);
+    await busy;
+    expect(spentByA + spentByB).toBe(quota);
+    await Promise.all([a.leases.settle(), b.leases.settle()]);
+    expect(await dbState(keyId)).toEqual({ used: quota, usage: quota, leased: 0 });
+  });
+
   it('never pass the quota with many calls in flight on two processes, multi-unit calls included', async () => {
     const quota = 1_000;
     const keyId = await newKey('contended leases', quota);
