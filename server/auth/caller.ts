@@ -43,6 +43,9 @@ const UNAUTHENTICATED_DETAIL =
   'Send a valid API key as `Authorization: Bearer <key>`, or sign in to the console (POST /api/v1/session). ' +
   'Keys are issued under /api/v1/keys or with `npm run keys -- create`.';
 
+/** `Authorization: Bearer <key>` (RFC 6750 §2.1), the key captured. */
+const BEARER_KEY = /^Bearer[ ]+(\S+)\s*$/i;
+
 /** One answer for missing, malformed, unknown, revoked, expired keys and disabled owners (RFC 6750 §3). */
 function unauthenticated(): ApiError {
   return new ApiError('unauthenticated', UNAUTHENTICATED_DETAIL, { headers: { 'WWW-Authenticate': 'Bearer realm="gammaline"' } });
@@ -69,7 +72,7 @@ async function verifyKey(ctx: AppContext, presented: string, now: Date): Promise
 }
 
 async function callerFromKey(ctx: AppContext, req: Request, res: Response, header: string): Promise<Caller> {
-  const match = /^Bearer[ ]+(\S+)\s*$/i.exec(header);
+  const match = BEARER_KEY.exec(header);
   if (!match?.[1]) throw unauthenticated();
   const now = ctx.clock.now();
   const verified = await verifyKey(ctx, match[1], now);
@@ -134,7 +137,7 @@ export function requireCaller(ctx: AppContext): RequestHandler {
 
 /** The caller of a Bearer key found in the verified-key cache, or undefined (then the full check runs). */
 function cachedCaller(ctx: AppContext, res: Response, header: string): Caller | undefined {
-  const match = /^Bearer[ ]+(\S+)\s*$/i.exec(header);
+  const match = BEARER_KEY.exec(header);
   const presented = match?.[1];
   if (!presented || !looksLikeApiKey(presented)) return undefined;
   const services = keyServicesFor(ctx.database, ctx.logger);

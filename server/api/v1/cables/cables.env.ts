@@ -31,7 +31,11 @@ function collectCableIds(v: unknown, into: Set<string>): void {
 
 /** The `cableId`s in a request value that are not catalog cables (account cables, or unknown ids). */
 export function accountCableIdsIn(value: unknown): string[] {
-  return [...cableIdsIn(value)].filter((id) => !CATALOG_IDS.has(id));
+  return notInCatalog(cableIdsIn(value));
+}
+
+function notInCatalog(ids: Iterable<string>): string[] {
+  return [...ids].filter((id) => !CATALOG_IDS.has(id));
 }
 
 /**
@@ -39,7 +43,7 @@ export function accountCableIdsIn(value: unknown): string[] {
  * the request names. Requests that name only catalog cables cost no query.
  */
 export async function calculationEnvFor(db: Db, organisationId: string, cableIds: Iterable<string>): Promise<CalculationEnv> {
-  const wanted = [...cableIds].filter((id) => !CATALOG_IDS.has(id));
+  const wanted = notInCatalog(cableIds);
   if (wanted.length === 0) return catalogOnly;
   const found = await findAccountCables(db, organisationId, wanted);
   if (found.length === 0) return catalogOnly;
