@@ -51,11 +51,14 @@ async function prepare(url: string): Promise<string> {
 }
 
 async function startServer(): Promise<{ child: ChildProcess; base: string }> {
-  const child = spawn(process.execPath, ['--import', 'tsx', path.join(root, 'bench', 'server.ts')], { env: process.env, stdio: ['ignore', 'pipe', 'inherit'] });
+  // BENCH_SERVER_NODE_ARGS='--cpu-prof --cpu-prof-dir=/tmp/prof' profiles the server under test.
+  const extra = (process.env.BENCH_SERVER_NODE_ARGS ?? '').split(' ').filter(Boolean);
+  const child = spawn(process.execPath, [...extra, '--import', 'tsx', path.join(root, 'bench', 'server.ts')], { env: process.env, stdio: ['ignore', 'pipe', 'inherit'] });
   const port = await new Promise<number>((resolve, reject) => {
     let buffered = '';
     child.stdout!.on('data', (chunk: Buffer) => {
       buffered += chunk.toString();
+      if (process.env.BENCH_DEBUG) process.stderr.write(chunk);
       const match = /\{"port":(\d+)\}/.exec(buffered);
       if (match) resolve(Number(match[1]));
     });
@@ -68,19 +71,26 @@ async function load(options: autocannon.Options): Promise<autocannon.Result> {
   return autocannon({ connections: CONNECTIONS, duration: SECONDS, ...options });
 }
 
-async function throughput(url: string, body: string, headers: Record<string, string>, runs = RUNS): Promise<number[]> {
-  const rates: number[] = [];
-  for (let i = 0; i < runs; i++) {
-    const r = await load({ url, method: 'POST', body, headers: { 'content-type': 'application/json', ...headers } });
-    if (r.non2xx > 0) throw new Error(`${url}: ${r.non2xx} non-2xx answers during the load`);
-    // Requests over the measured time: autocannon's per-second average is too coarse for 5-second runs.
-    rates.push(r.requests.total / r.duration);
-  }
-  return rates;
+async function serverCpuUs(url: string): Promise<number> {
+  return ((await (await fetch(new URL('/bench/cpu', url))).json()) as { cpuUs: number }).cpuUs;
+}
+
+/** Requests per second over one bounded load, and the server's CPU time per request (µs). */
+async function throughput(url: string, body: string, headers: Record<string, string>): Promise<{ rps: number; cpuUsPerRequest: number }> {
+  const cpuBefore = await serverCpuUs(url);
+  const r = await load({ url, method: 'POST', body, headers: { 'content-type': 'application/json', ...headers } });
+  const cpu = (await serverCpuUs(url)) - cpuBefore;
+  if (r.non2xx > 0) throw new Error(`${url}: ${r.non2xx} non-2xx answers during the load`);
+  // Requests over the measured time: autocannon's per-second average is too coarse for 5-second runs.
+  return { rps: r.requests.total / r.duration, cpuUsPerRequest: cpu / r.requests.total };
 }
 
 async function p1(base: string, key: string): Promise<Target> {
   const body = JSON.stringify({ forwardPowerW: 100, reflectedPowerW: 4 });
+  if (process.env.BENCH_DEBUG) {
+    const r = await fetch(`${base}/api/v1/mismatch`, { method: 'POST', body, headers: { 'content-type': 'application/json', authorization: `Bearer ${key}` } });
+    console.error(r.status, [...r.headers].map(([k, v]) => `${k}: ${v}`).join('\n'), await r.text());
+  }
   // One unmeasured second on each route first: compiled code paths, connections and caches as in a running server.
   for (const [path, headers] of [['/bench/bare', {}], ['/api/v1/mismatch', { authorization: `Bearer ${key}` }]] as const) {
     await autocannon({ connections: CONNECTIONS, duration: 1, url: `${base}${path}`, method: 'POST', body, headers: { 'content-type': 'application/json', ...headers } });
@@ -90,12 +100,16 @@ async function p1(base: string, key: string): Promise<Target> {
   const bareRates: number[] = [];
   const calcRates: number[] = [];
   const ratios: number[] = [];
+  const bareCpu: number[] = [];
+  const calcCpu: number[] = [];
   for (let i = 0; i < RUNS; i++) {
-    const b = (await throughput(`${base}/bench/bare`, body, {}, 1))[0]!;
-    const c = (await throughput(`${base}/api/v1/mismatch`, body, { authorization: `Bearer ${key}` }, 1))[0]!;
-    bareRates.push(b);
-    calcRates.push(c);
-    ratios.push(c / b);
+    const b = await throughput(`${base}/bench/bare`, body, {});
+    const c = await throughput(`${base}/api/v1/mismatch`, body, { authorization: `Bearer ${key}` });
+    bareRates.push(b.rps);
+    calcRates.push(c.rps);
+    ratios.push(c.rps / b.rps);
+    bareCpu.push(b.cpuUsPerRequest);
+    calcCpu.push(c.cpuUsPerRequest);
   }
   const bare = median(bareRates);
   const calc = median(calcRates);
@@ -111,7 +125,7 @@ async function p1(base: string, key: string): Promise<Target> {
   return {
     id: 'P1',
     what: 'authenticated, quota-counted /mismatch vs bare JSON route (req/s)',
-    measured: { bareRps: bare, calcRps: calc, p99MsAtHalfLoad: p99, halfLoadRps: half, bareP99MsAtSameRate: median(bareP99s), pacedFailures },
+    measured: { bareRps: bare, calcRps: calc, bareServerCpuUsPerRequest: median(bareCpu), calcServerCpuUsPerRequest: median(calcCpu), p99MsAtHalfLoad: p99, halfLoadRps: half, bareP99MsAtSameRate: median(bareP99s), pacedFailures },
     goal: 'ratio ≥ 0.70 and p99 ≤ 10 ms at half load',
     ratio,
     met: ratio >= 0.7 && p99 <= 10,
@@ -130,6 +144,7 @@ async function pacedP99(url: string, body: string, headers: Record<string, strin
   const agent = new http.Agent({ keepAlive: true, maxSockets: CONNECTIONS });
   const total = Math.round(rate * SECONDS);
   const latencies: number[] = [];
+  const lateness: number[] = [];
   const started = performance.now();
   const inFlight = new Set<Promise<void>>();
   let sent = 0;
@@ -142,6 +157,7 @@ async function pacedP99(url: string, body: string, headers: Record<string, strin
     else if (wait > 0) await new Promise((r) => setImmediate(r));
     while (sent < total && started + (sent * 1000) / rate <= performance.now()) {
       const dueAt = started + (sent * 1000) / rate;
+      lateness.push(performance.now() - dueAt);
       sent++;
       const p: Promise<void> = new Promise<void>((resolve) => {
         const req = http.request(url, { method: 'POST', agent, headers: { 'content-type': 'application/json', ...headers } }, (res) => {
@@ -174,6 +190,8 @@ async function pacedP99(url: string, body: string, headers: Record<string, strin
     for (let i = 0; i < failed; i++) latencies.push(Number.POSITIVE_INFINITY);
   }
   pacedFailures += failed;
+  lateness.sort((a, b) => a - b);
+  if (process.env.BENCH_DEBUG) console.error(`[bench] ${url} at ${rate}/s: send lateness p50 ${lateness[Math.floor(lateness.length / 2)]!.toFixed(2)} p99 ${lateness[Math.floor(lateness.length * 0.99)]!.toFixed(2)} ms`);
   latencies.sort((a, b) => a - b);
   return latencies[Math.min(latencies.length - 1, Math.floor(latencies.length * 0.99))]!;
 }
@@ -202,9 +220,11 @@ async function p2(base: string, key: string): Promise<Target> {
   const echo: number[] = [];
   const batch: number[] = [];
   const ratios: number[] = [];
-  // One unmeasured round first: the line code and the item schema compiled, as in a running server.
-  await post(`${base}/bench/echo`, body, { 'content-type': 'application/json' });
-  await post(`${base}/api/v1/batch`, body, { 'content-type': 'application/json', authorization: `Bearer ${key}` });
+  // Unmeasured rounds first: the line code and the item schema compiled and the heap grown, as in a running server.
+  for (let i = 0; i < 3; i++) {
+    await post(`${base}/bench/echo`, body, { 'content-type': 'application/json' });
+    await post(`${base}/api/v1/batch`, body, { 'content-type': 'application/json', authorization: `Bearer ${key}` });
+  }
   for (let i = 0; i < RUNS; i++) {
     echo.push((await post(`${base}/bench/echo`, body, { 'content-type': 'application/json' })).ms);
     const r = await post(`${base}/api/v1/batch`, body, { 'content-type': 'application/json', authorization: `Bearer ${key}` });
@@ -330,14 +350,21 @@ async function p5(base: string, key: string): Promise<Target> {
 const url = process.env.DATABASE_URL;
 if (!url) throw new Error('Run the benchmark with `npm run bench` (it provides DATABASE_URL).');
 const loadBefore = os.loadavg()[0]!;
+// BENCH_ONLY=P2,P3 runs just those targets (while working on one); results.json then holds only them.
+const only = new Set((process.env.BENCH_ONLY ?? 'P1,P2,P3,P4,P5').split(',').map((id) => id.trim().toUpperCase()));
 const key = await prepare(url);
-const targets: Target[] = [p3(), p4()];
-const { child, base } = await startServer();
-try {
-  targets.unshift(await p1(base, key), await p2(base, key));
-  targets.push(await p5(base, key));
-} finally {
-  child.kill('SIGTERM');
+const targets: Target[] = [];
+if (only.has('P3')) targets.push(p3());
+if (only.has('P4')) targets.push(p4());
+if (only.has('P1') || only.has('P2') || only.has('P5')) {
+  const { child, base } = await startServer();
+  try {
+    if (only.has('P1')) targets.push(await p1(base, key));
+    if (only.has('P2')) targets.push(await p2(base, key));
+    if (only.has('P5')) targets.push(await p5(base, key));
+  } finally {
+    child.kill('SIGTERM');
+  }
 }
 targets.sort((a, b) => a.id.localeCompare(b.id));
 

@@ -1,9 +1,9 @@
 // The server under test for `npm run bench`: the real app, plus reference routes in the same app
 // so that ratios compare like with like (same Express, same JSON, same machine).
-import { createServer } from 'node:http';
 import express from 'express';
 import { pino } from 'pino';
 import { createApp } from '../server/app.ts';
+import { createAppServer } from '../server/http/app-server.ts';
 import { loadConfig } from '../server/config.ts';
 import { openDatabase } from '../server/db/client.ts';
 
@@ -24,13 +24,18 @@ const app = createApp({
     outer.post('/bench/echo', express.json({ limit: '64mb' }), (req, res) => {
       res.json(req.body);
     });
+    // CPU time of the server process (µs): per-request cost without the wall-clock noise of a shared VM.
+    outer.get('/bench/cpu', (_req, res) => {
+      const { user, system } = process.cpuUsage();
+      res.json({ cpuUs: user + system, userUs: user, systemUs: system });
+    });
     outer.get('/bench/memory', (_req, res) => {
       res.json({ rssBytes: process.memoryUsage().rss, maxRssBytes: process.resourceUsage().maxRSS * 1024 });
     });
   },
 });
 
-const server = createServer(app);
+const server = createAppServer(app);
 server.keepAliveTimeout = 30_000;
 server.listen(0, '127.0.0.1', () => {
   const address = server.address();

@@ -18,7 +18,8 @@ try {
   cluster = await startCluster({ dataDir: path.join(scratch, 'pg'), throwaway: true });
   ensureDatabase(cluster.port, 'gammaline_bench');
   const env = { ...process.env, NODE_ENV: 'production', SESSION_SECRET: 'bench-only-secret-0123456789abcdef0123', SMTP_URL: 'smtp://127.0.0.1:9', DATABASE_URL: `postgres://postgres@127.0.0.1:${cluster.port}/gammaline_bench` };
-  const bench = runChild(process.execPath, ['--import', 'tsx', 'bench/run.ts'], { env });
+  // BENCH_SCRIPT runs another script in the same set-up (an A/B comparison while working on a target).
+  const bench = runChild(process.execPath, ['--import', 'tsx', process.env.BENCH_SCRIPT ?? 'bench/run.ts'], { env });
   process.exitCode = await bench.exited;
 } catch (err) {
   console.error(`[gammaline] ${err instanceof Error ? err.message : String(err)}`);

@@ -1,7 +1,8 @@
 import cluster, { type Worker } from 'node:cluster';
-import { createServer, type IncomingMessage, type ServerResponse } from 'node:http';
+import type { IncomingMessage, ServerResponse } from 'node:http';
 import { pino, type Logger } from 'pino';
 import { createApp } from './app.ts';
+import { createAppServer } from './http/app-server.ts';
 import { stopKeyServices } from './auth/key-services.ts';
 import { loadConfig, type AppConfig } from './config.ts';
 import { openDatabase, type Database } from './db/client.ts';
@@ -94,7 +95,7 @@ async function runServer(config: AppConfig, logger: Logger, options: { prepare: 
   const app = createApp({ database, config, logger, mailer });
   // Workers start after the primary prepared the database; a lone process prepares it after listening.
   let prepared = !options.prepare;
-  const server = createServer((req, res) => {
+  const server = createAppServer(app, (req, res) => {
     if (prepared || req.url === '/healthz') app(req, res);
     else answerNotReady(req, res);
   });

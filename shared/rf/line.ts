@@ -181,10 +181,13 @@ function isComplexLike(z: unknown): z is Complex {
   return typeof re === 'number' && typeof im === 'number' && re - re === 0 && im - im === 0;
 }
 
-function solveSection(line: LineModel, loadOhm: Complex, prefix: string, loadField: string): SectionSolution {
+/**
+ * Validates a section and gives its lumped loss in nepers (0 without one). Checks are inline and
+ * allocation-free because sweeps and batches call this per point; the validate.ts helpers run only
+ * to raise the error with its message.
+ */
+function validSectionFixedNp(line: LineModel, prefix: string): number {
   if (typeof line !== 'object' || line === null) throw new RfInputError(prefix, `${prefix} must describe a line section.`);
-  // Sweeps call this per point, so the checks are inline and allocation-free; the validate.ts helpers
-  // run only to raise the error with its message.
   const z0 = line.characteristicOhm;
   if (!isComplexLike(z0) || z0.re <= 0) requireReferenceImpedance(z0, `${prefix}.characteristicOhm`);
   const gamma = line.propagationPerM;
@@ -194,17 +197,52 @@ function solveSection(line: LineModel, loadOhm: Complex, prefix: string, loadFie
   }
   const lengthM = line.lengthM;
   if (typeof lengthM !== 'number' || !(lengthM >= 0) || lengthM === Infinity) requireNonNegative(lengthM, `${prefix}.lengthM`, 'A line length');
-  const fixedDb = line.fixedLossDb === undefined ? 0 : requireNonNegative(line.fixedLossDb, `${prefix}.fixedLossDb`, 'A fixed loss');
-  const zl = loadOhm;
-  if (!isComplexLike(zl) || zl.re < 0) requirePassiveLoad(zl, loadField);
+  return line.fixedLossDb === undefined ? 0 : requireNonNegative(line.fixedLossDb, `${prefix}.fixedLossDb`, 'A fixed loss') / DB_PER_NEPER;
+}
 
+function requireLoad(loadOhm: Complex, loadField: string): void {
+  if (!isComplexLike(loadOhm) || loadOhm.re < 0) requirePassiveLoad(loadOhm, loadField);
+}
+
+/**
+ * Zin = Z0·[ZL(1+u) + Z0(1−u)] / [Z0(1+u) + ZL(1−u)] with u = e^{−2θ} = ur + j·ui: Γin = Γ_L·u
+ * rearranged so that neither a short, an open nor a quarter-wave (u = −1) divides by zero on the way.
+ */
+function impedanceThrough(z0: Complex, zl: Complex, ur: number, ui: number, loadField: string): Complex {
   const z0r = z0.re;
   const z0i = z0.im;
   const zlr = zl.re;
   const zli = zl.im;
-  const fixedNp = fixedDb / DB_PER_NEPER;
+  const pr = 1 + ur;
+  const qr = 1 - ur;
+  const numR = zlr * pr - zli * ui + z0r * qr + z0i * ui;
+  const numI = zlr * ui + zli * pr - z0r * ui + z0i * qr;
+  const denR = z0r * pr - z0i * ui + zlr * qr + zli * ui;
+  const denI = z0r * ui + z0i * pr - zlr * ui + zli * qr;
+  const den2 = denR * denR + denI * denI;
+  if (den2 === 0) throw new RfInputError(loadField, OPEN_AT_INPUT);
+  const tR = z0r * numR - z0i * numI;
+  const tI = z0r * numI + z0i * numR;
+  const re = (tR * denR + tI * denI) / den2;
+  const im = (tI * denR - tR * denI) / den2;
+  if (!(re - re === 0 && im - im === 0)) throw new RfInputError(loadField, OPEN_AT_INPUT);
+  return { re, im };
+}
+
+function solveSection(line: LineModel, loadOhm: Complex, prefix: string, loadField: string): SectionSolution {
+  const fixedNp = validSectionFixedNp(line, prefix);
+  requireLoad(loadOhm, loadField);
+  const z0 = line.characteristicOhm;
+  const gamma = line.propagationPerM;
+  const lengthM = line.lengthM;
+  // θ = γl + fixed loss: Re θ is the one-way matched loss in nepers, Im θ the electrical length in radians.
   const lossNp = gamma.re * lengthM + fixedNp;
   const phase = gamma.im * lengthM;
+  const zl = loadOhm;
+  const z0r = z0.re;
+  const z0i = z0.im;
+  const zlr = zl.re;
+  const zli = zl.im;
   const sLr = zlr + z0r;
   const sLi = zli + z0i;
   const sL2 = sLr * sLr + sLi * sLi;
@@ -226,38 +264,23 @@ function solveSection(line: LineModel, loadOhm: Complex, prefix: string, loadFie
     gIni = gLi;
     kIn = kL;
   } else {
-    // u = e^{−2θ}; Zin = Z0·[ZL(1+u) + Z0(1−u)] / [Z0(1+u) + ZL(1−u)] is Γin = Γ_L·u rearranged so that
-    // neither a short, an open nor a quarter-wave (u = −1) divides by zero on the way.
     const m = Math.exp(-2 * lossNp);
     const ur = m * Math.cos(2 * phase);
     const ui = -m * Math.sin(2 * phase);
-    const pr = 1 + ur;
-    const qr = 1 - ur;
-    const numR = zlr * pr - zli * ui + z0r * qr + z0i * ui;
-    const numI = zlr * ui + zli * pr - z0r * ui + z0i * qr;
-    const denR = z0r * pr - z0i * ui + zlr * qr + zli * ui;
-    const denI = z0r * ui + z0i * pr - zlr * ui + zli * qr;
-    const den2 = denR * denR + denI * denI;
-    if (den2 === 0) throw new RfInputError(loadField, OPEN_AT_INPUT);
-    const tR = z0r * numR - z0i * numI;
-    const tI = z0r * numI + z0i * numR;
-    let zinR = (tR * denR + tI * denI) / den2;
-    const zinI = (tI * denR - tR * denI) / den2;
-    if (!(zinR - zinR === 0 && zinI - zinI === 0)) throw new RfInputError(loadField, OPEN_AT_INPUT);
+    zin = impedanceThrough(z0, zl, ur, ui, loadField);
     gInr = gLr * ur - gLi * ui;
     gIni = gLr * ui + gLi * ur;
     if (lossless) {
       // No loss and a real Z0: the forward wave keeps its amplitude and the input takes exactly the
       // load's power, so a reactive load stays reactive instead of gaining a rounding-size resistance
       // (which would let any power through and report absurd voltages).
-      if (zlr === 0) zinR = 0;
+      if (zlr === 0) zin.re = 0;
       kIn = kL;
     } else {
-      const sIr = zinR + z0r;
-      const sIi = zinI + z0i;
-      kIn = (4 * zinR) / (sIr * sIr + sIi * sIi);
+      const sIr = zin.re + z0r;
+      const sIi = zin.im + z0i;
+      kIn = (4 * zin.re) / (sIr * sIr + sIi * sIi);
     }
-    zin = { re: zinR, im: zinI };
   }
   return { z0, zl, zin, gLr, gLi, gInr, gIni, alpha: gamma.re, beta: gamma.im, lengthM, fixedNp, lossNp, kL, kIn, lossless };
 }
@@ -432,7 +455,17 @@ function requireFrequency(frequencyHz: number): void {
  * @example lineInputImpedance(lineFromLossSpec({ impedanceOhm: { re: 50, im: 0 }, velocityFactor: 1, lossDbPer100m: 0, lengthM: 5 }, 15e6), { re: 25, im: 0 }) // ≈ { re: 100, im: 0 }
  */
 export function lineInputImpedance(line: LineModel, loadOhm: Complex): Complex {
-  return solveSection(line, loadOhm, 'line', 'loadOhm').zin;
+  // The same steps as solveSection without the reflection and power figures a sweep does not need.
+  const fixedNp = validSectionFixedNp(line, 'line');
+  requireLoad(loadOhm, 'loadOhm');
+  const lossNp = line.propagationPerM.re * line.lengthM + fixedNp;
+  const phase = line.propagationPerM.im * line.lengthM;
+  if (lossNp === 0 && phase === 0) return { re: loadOhm.re, im: loadOhm.im };
+  const m = Math.exp(-2 * lossNp);
+  const zin = impedanceThrough(line.characteristicOhm, loadOhm, m * Math.cos(2 * phase), -m * Math.sin(2 * phase), 'loadOhm');
+  // As in solveSection: a lossless line ending in a reactance stays a reactance.
+  if (loadOhm.re === 0 && lossNp === 0 && line.characteristicOhm.im === 0) zin.re = 0;
+  return zin;
 }
 
 /**

@@ -1,9 +1,10 @@
 import { spawn, type ChildProcess } from 'node:child_process';
-import { Agent, createServer, request, type Server } from 'node:http';
+import { Agent, request, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { Express } from 'express';
+import { createAppServer } from '../../server/http/app-server.ts';
 
 /** Keep-alive sockets shared by every `send`: enough for the widest pool a test runs (inPool / inPoolFrom). */
 const agent = new Agent({ keepAlive: true, maxSockets: 64 });
@@ -41,7 +42,7 @@ export interface HostileRequest {
  * would each open a socket, while fetch keeps its connections alive.
  */
 export async function listen(app: Express): Promise<{ server: Server; base: string; close(): Promise<void> }> {
-  const server = createServer(app);
+  const server = createAppServer(app);
   await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', resolve));
   const { port } = server.address() as AddressInfo;
   return {

@@ -130,6 +130,34 @@ describe('lossy lines agree with complex.js evaluating Zin = Z0·(ZL + Z0·tanh 
   });
 });
 
+describe('the input-impedance-only path', () => {
+  // Identity (property): the sweep path and the full transform give the same Zin bit for bit,
+  // including the lossless line ending in a pure reactance, where Re Zin is exactly 0.
+  it('agrees with transformLine on lossless lines with reactive and resistive loads', () => {
+    fc.assert(
+      fc.property(
+        fc.double({ min: 0, max: 60, noNaN: true }),
+        fc.double({ min: 0, max: 500, noNaN: true }),
+        fc.double({ min: -2000, max: 2000, noNaN: true }),
+        (lengthM, zlRe, zlIm) => {
+          const line = losslessLine(lengthM);
+          for (const zl of [{ re: zlRe, im: zlIm }, { re: 0, im: zlIm }]) {
+            let expected: unknown;
+            try {
+              expected = transformLine(line, zl, F).inputOhm;
+            } catch (err) {
+              expected = err;
+            }
+            if (expected instanceof Error) expect(() => lineInputImpedance(line, zl)).toThrow(expected.message);
+            else expect(lineInputImpedance(line, zl)).toEqual(expected);
+          }
+        },
+      ),
+      { numRuns: 500 },
+    );
+  });
+});
+
 describe('line models follow their definitions', () => {
   it('turns a datasheet loss into α in Np/m and VF into β (1 Np = 8.686 dB, IEC 60027-3)', () => {
     const line = lineFromLossSpec({ impedanceOhm: Z50, velocityFactor: 0.66, lossDbPer100m: 8.686, lengthM: 100 }, 10e6);
