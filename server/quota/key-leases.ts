@@ -19,6 +19,9 @@ export const IDLE_RETURN_MS = 1_000;
 export const MAX_PREFETCH = 4_096;
 /** How long a refusing process waits for other processes to give units back. */
 const RECLAIM_WAIT_MS = 250;
+/** Leases for a call whose granted hits belonged to a window already over (clocks a little apart), and the pause between the later ones. */
+const MAX_WINDOW_RETRIES = 8;
+const WINDOW_RETRY_WAIT_MS = 50;
 /** After giving units back on request, a process reserves only what it needs for this long. */
 const NEED_ONLY_MS = 10_000;
 /** The demand that sizes the next reservation is measured over windows of this length. */
@@ -59,8 +62,8 @@ interface Waiting {
   reject(err: unknown): void;
   /** Other processes were already asked for units on this call's behalf. */
   reclaimed: boolean;
-  /** Already leased for again because its per-minute window changed during a lease. */
-  windowRetried?: boolean;
+  /** Times leased for again because the per-minute window turned over during a lease. */
+  windowRetries?: number;
 }
 
 /** What this process holds for one key and day. */
@@ -394,13 +397,17 @@ export class KeyLeases {
     const again: Waiting[] = [];
     const final: Waiting[] = [];
     const askOthers = grant.holders > 0 && refused.some((w) => !w.reclaimed);
+    // The database reads its clock when the lease starts: a lease just before the minute turns can grant
+    // hits of a window that is over by the time the answer arrives. Those hits are void, not a refusal.
+    const grantedWindowOver = grant.burst !== undefined && grant.burst.resetAt.getTime() <= nowAfter;
+    let waitForWindow = false;
     for (const w of refused) {
       if (askOthers && !w.reclaimed) {
         w.reclaimed = true;
         again.push(w);
-      } else if (windowChanged && noHit(w) && !w.windowRetried) {
-        // The window turned over between our clock and the database's: the hits we counted on were void.
-        w.windowRetried = true;
+      } else if ((windowChanged || grantedWindowOver) && noHit(w) && (w.windowRetries ?? 0) < MAX_WINDOW_RETRIES) {
+        w.windowRetries = (w.windowRetries ?? 0) + 1;
+        waitForWindow ||= grantedWindowOver && w.windowRetries > 1;
         again.push(w);
       } else {
         final.push(w);
@@ -411,6 +418,8 @@ export class KeyLeases {
     if (final.some((w) => !noHit(w)) && pool.units > 0) pool.giveBackAsked = true;
     if (again.length === 0) return;
     if (askOthers) await this.reclaim(pool.keyId, pool.day, grant.holders, pool);
+    // Still the old window on a second try: the database's clock is behind ours; give it a moment.
+    if (waitForWindow) await new Promise((resolve) => setTimeout(resolve, WINDOW_RETRY_WAIT_MS));
     pool.waiting.unshift(...again);
   }
 

@@ -1,6 +1,6 @@
 import { sql } from 'drizzle-orm';
 import { pino } from 'pino';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
 import { keyServicesFor, type KeyServices } from '../../server/auth/key-services.ts';
 import { openDatabase, type Database } from '../../server/db/client.ts';
@@ -154,6 +154,29 @@ describe('quota leases', () => {
     expect(decisions.filter((d) => d.refusedBy === 'burst')).toHaveLength(80);
     await Promise.all([a.leases.settle(), b.leases.settle()]);
     expect((await dbState(keyId)).used).toBe(50);
+  });
+
+  it('never refuse a call for hits of a minute window that ended while the lease was on its way', async () => {
+    const keyId = await newKey('window edge', 100_000, 1_000_000_000);
+    const a = await instance();
+    // The key's current window ends 40 ms from now by the database's clock, and this process's clock
+    // runs 100 ms ahead: the lease grants hits of a window this process already sees as over. Before
+    // the fix such a call was refused as over a burst limit of a billion.
+    await ctx.database.db.execute(
+      sql`insert into rate_limit_hits (key, hits, reset_at) values (${`burst:key:${keyId}`}, 0, now() + interval '40 milliseconds')
+          on conflict (key) do update set hits = 0, reset_at = excluded.reset_at`,
+    );
+    const realNow = Date.now.bind(Date);
+    const ahead = vi.spyOn(Date, 'now').mockImplementation(() => realNow() + 100);
+    try {
+      const decision = await a.leases.spend(call(keyId));
+      expect(decision).toMatchObject({ admitted: true });
+      expect(decision.burst!.resetAt.getTime()).toBeGreaterThan(Date.now());
+    } finally {
+      ahead.mockRestore();
+    }
+    await a.leases.settle();
+    expect((await dbState(keyId)).used).toBe(1);
   });
 
   it('apply a return once, even when it is sent again after its answer was lost', async () => {
