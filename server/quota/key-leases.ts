@@ -89,6 +89,11 @@ class KeyDayPool {
   waiting: Waiting[] = [];
   /** A lease or a return is running; only one at a time per pool. */
   running: Promise<void> | undefined;
+  /** The running lease is a top-up (no call waits on it), so calls may still spend what the pool holds. */
+  toppingUp = false;
+  topUpAsked = false;
+  /** The per-minute window the pool's calls count against (from the first call). */
+  burst: MeteredCall['burst'];
   giveBackAsked = false;
   /** Resolved when the give-back asked for has run. */
   giveBackWaiters: (() => void)[] = [];
@@ -146,7 +151,9 @@ class KeyDayPool {
  * the quota: overspend is exactly zero. Block sizes adapt: a lease asks for what waiting requests need
  * plus about two windows of recent demand (at most MAX_PREFETCH), and the database grants the advance
  * part only up to an eighth of what is still free, so reservations shrink to nothing as the quota runs
- * out. Requests that arrive while a lease is running wait and are decided together by the next one.
+ * out. Requests that arrive while a lease is running wait and are decided together by the next one;
+ * a busy pool that falls below half of its advance target tops itself up in the background meanwhile
+ * calls go on spending, so the round trip is rarely on a request's path.
  *
  * Nobody is refused while units sit unused elsewhere: a process that cannot cover a request, while
  * other live processes hold unspent units of the key, asks them on QUOTA_RECLAIM_CHANNEL; they give
@@ -188,14 +195,32 @@ export class KeyLeases {
     const nowMs = Date.now();
     pool.lastUseMs = nowMs;
     // While a lease runs, its group was sized on what the pool holds: later calls wait for the next one.
-    if (!pool.running && pool.waiting.length === 0) {
+    // A top-up is sized on nobody's need, so calls keep spending during it.
+    if ((!pool.running || pool.toppingUp) && pool.waiting.length === 0) {
       const decided = this.admit(pool, call, nowMs);
-      if (decided) return decided;
+      if (decided) {
+        this.topUpWhenLow(pool, nowMs);
+        return decided;
+      }
     }
     return new Promise<MeterDecision>((resolve, reject) => {
       pool.waiting.push({ call, resolve, reject, reclaimed: false });
       if (!pool.running) this.run(pool);
     });
+  }
+
+  /**
+   * Reserves the next block before this one runs out: when a busy pool falls below half of its advance
+   * target, a lease for the difference runs in the background, so calls rarely wait for a round trip.
+   */
+  private topUpWhenLow(pool: KeyDayPool, nowMs: number): void {
+    if (pool.running || pool.topUpAsked) return;
+    const target = pool.extra(nowMs);
+    const lowUnits = pool.units * 2 < target.units;
+    const lowHits = pool.burst !== undefined && pool.hits * 2 < target.hits;
+    if (!lowUnits && !lowHits) return;
+    pool.topUpAsked = true;
+    this.run(pool);
   }
 
   /** Units this process holds unspent for a key and day (they count as used in the database). */
@@ -267,6 +292,7 @@ export class KeyLeases {
     let pool = this.pools.get(id);
     if (!pool) {
       pool = new KeyDayPool(call.keyId, call.day, call.burst?.row);
+      pool.burst = call.burst;
       this.pools.set(id, pool);
     }
     return pool;
@@ -310,7 +336,7 @@ export class KeyLeases {
       .finally(() => {
         pool.running = undefined;
         // Calls that arrived in between start the next round.
-        if (pool.waiting.length > 0 || pool.giveBackAsked) this.run(pool);
+        if (pool.waiting.length > 0 || pool.giveBackAsked || pool.topUpAsked) this.run(pool);
       });
   }
 
@@ -328,6 +354,17 @@ export class KeyLeases {
         await this.decide(pool, group).catch((err: unknown) => {
           for (const w of group) w.reject(err);
         });
+      } else if (pool.topUpAsked) {
+        pool.topUpAsked = false;
+        pool.toppingUp = true;
+        try {
+          await this.topUp(pool);
+        } catch (err) {
+          // Nothing waits on a top-up: the next call that finds the pool short leases for itself.
+          this.logger.warn({ err, keyId: pool.keyId }, 'could not reserve quota units ahead');
+        } finally {
+          pool.toppingUp = false;
+        }
       } else {
         return;
       }
@@ -368,23 +405,7 @@ export class KeyLeases {
       unspent: pool.units,
       burst: short[0]!.call.burst,
     });
-    pool.units += grant.units;
-    pool.leased = true;
-    pool.reportedUnits = pool.units;
-    pool.reportedAtMs = Date.now();
-    pool.used = grant.used;
-    pool.quota = grant.quota;
-    pool.warned80 = grant.warned80;
-    pool.warned100 = grant.warned100;
-    let windowChanged = false;
-    if (grant.burst) {
-      windowChanged = windowBefore !== grant.burst.resetAt.getTime();
-      if (windowChanged) pool.hits = 0;
-      pool.hits += grant.hits;
-      pool.resetAt = grant.burst.resetAt;
-      pool.burstLimit = grant.burst.limit;
-      pool.burstHits = grant.burst.hits;
-    }
+    const windowChanged = this.takeGrant(pool, grant, windowBefore);
     const refused: Waiting[] = [];
     for (const w of short) {
       const decided = this.admit(pool, w.call, Date.now());
@@ -421,6 +442,50 @@ export class KeyLeases {
     // Still the old window on a second try: the database's clock is behind ours; give it a moment.
     if (waitForWindow) await new Promise((resolve) => setTimeout(resolve, WINDOW_RETRY_WAIT_MS));
     pool.waiting.unshift(...again);
+  }
+
+  /** Adds a lease's grant to the pool; true when it started a new per-minute window. */
+  private takeGrant(pool: KeyDayPool, grant: Awaited<ReturnType<typeof leaseKeyUnits>>, windowBefore: number | undefined): boolean {
+    pool.units += grant.units;
+    pool.leased = true;
+    pool.reportedUnits = pool.units;
+    pool.reportedAtMs = Date.now();
+    pool.used = grant.used;
+    pool.quota = grant.quota;
+    pool.warned80 = grant.warned80;
+    pool.warned100 = grant.warned100;
+    if (!grant.burst) return false;
+    const windowChanged = windowBefore !== grant.burst.resetAt.getTime();
+    if (windowChanged) pool.hits = 0;
+    pool.hits += grant.hits;
+    pool.resetAt = grant.burst.resetAt;
+    pool.burstLimit = grant.burst.limit;
+    pool.burstHits = grant.burst.hits;
+    return windowChanged;
+  }
+
+  /** A lease for the advance target alone, while calls go on spending what the pool holds. */
+  private async topUp(pool: KeyDayPool): Promise<void> {
+    const nowMs = Date.now();
+    if (!pool.hitsValid(nowMs)) pool.hits = 0;
+    const target = pool.extra(nowMs);
+    const extraUnits = Math.max(0, target.units - pool.units);
+    const extraHits = pool.burst ? Math.max(0, target.hits - pool.hits) : 0;
+    if (extraUnits === 0 && extraHits === 0) return;
+    if (pool.pendingReturn) await this.sendPendingReturn(pool);
+    const windowBefore = pool.resetAt?.getTime();
+    const grant = await leaseKeyUnits(this.db, {
+      instanceId: this.instanceId,
+      keyId: pool.keyId,
+      day: pool.day,
+      needUnits: 0,
+      needHits: 0,
+      extraUnits,
+      extraHits,
+      unspent: pool.units,
+      burst: pool.burst,
+    });
+    this.takeGrant(pool, grant, windowBefore);
   }
 
   /** Asks the other processes holding units of this key and day to give them back, and waits for them. */
