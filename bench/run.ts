@@ -301,22 +301,25 @@ function p4(): Target {
   const text = touchstoneText(10_000);
   const parseMs: number[] = [];
   const bothMs: number[] = [];
+  const ratios: number[] = [];
   // The first rounds include compiling the code paths: the server runs warm, so they are not counted.
+  // As elsewhere the ratio is the median of the per-round ratios: a young-generation collection
+  // landing in one side of a round moves that round only.
   const WARM_UP = 5;
-  for (let i = 0; i < WARM_UP + 21; i++) {
-    if (i === WARM_UP) {
-      parseMs.length = 0;
-      bothMs.length = 0;
-    }
+  for (let i = 0; i < WARM_UP + 31; i++) {
     const t0 = performance.now();
     parseTouchstone(text);
-    parseMs.push(performance.now() - t0);
+    const parsed = performance.now() - t0;
     const t1 = performance.now();
     const sweep = parseTouchstone(text);
     analyseSweep(sweep.points, { referenceOhm: sweep.referenceOhm, thresholdSwr: 2 });
-    bothMs.push(performance.now() - t1);
+    const both = performance.now() - t1;
+    if (i < WARM_UP) continue;
+    parseMs.push(parsed);
+    bothMs.push(both);
+    ratios.push(both / parsed);
   }
-  const ratio = median(bothMs) / median(parseMs);
+  const ratio = median(ratios);
   return { id: 'P4', what: '10,000-point Touchstone: parse + analyse vs parse alone (time)', measured: { parseMs: median(parseMs), parseAndAnalyseMs: median(bothMs) }, goal: 'ratio ≤ 2', ratio, met: ratio <= 2 };
 }
 
