@@ -1,5 +1,6 @@
 // The server under test for `npm run bench`: the real app, plus reference routes in the same app
 // so that ratios compare like with like (same Express, same JSON, same machine).
+import { monitorEventLoopDelay } from 'node:perf_hooks';
 import express from 'express';
 import { pino } from 'pino';
 import { createApp } from '../server/app.ts';
@@ -28,6 +29,17 @@ const app = createApp({
     outer.get('/bench/cpu', (_req, res) => {
       const { user, system } = process.cpuUsage();
       res.json({ cpuUs: user + system, userUs: user, systemUs: system });
+    });
+    // The server's event-loop delay since the last reset: how much of a latency figure the server's own
+    // pauses (collections, long synchronous work) explain.
+    const loop = monitorEventLoopDelay({ resolution: 1 });
+    loop.enable();
+    outer.post('/bench/loop/reset', (_req, res) => {
+      loop.reset();
+      res.json({ ok: true });
+    });
+    outer.get('/bench/loop', (_req, res) => {
+      res.json({ p99Ms: loop.percentile(99) / 1e6, maxMs: loop.max / 1e6 });
     });
     outer.get('/bench/memory', (_req, res) => {
       res.json({ rssBytes: process.memoryUsage().rss, maxRssBytes: process.resourceUsage().maxRSS * 1024 });

@@ -11,7 +11,7 @@ import { recordConsoleUsage } from '../quota/quota.repository.ts';
 import { sendQuotaWarnings } from '../quota/warnings.ts';
 import type { MeterDecision } from '../quota/key-leases.ts';
 import { hashApiKey, looksLikeApiKey } from './api-key.ts';
-import { keyServicesFor } from './key-services.ts';
+import { keyServicesFor, type KeyServices } from './key-services.ts';
 import { csrfSatisfied } from './session.ts';
 import { verifyApiKeyHash, type KeyVerification, type VerifiedKey } from './verify-key.ts';
 
@@ -65,10 +65,25 @@ async function verifyKey(ctx: AppContext, presented: string, now: Date): Promise
     const cached = services.cache.get(hash, now);
     if (cached) return { outcome: 'valid', key: cached };
   }
-  const generation = services.cache.generation;
-  const verified = await verifyApiKeyHash(ctx.database.db, hash, now);
-  if (verified.outcome === 'valid' && usable && services.cacheUsable()) services.cache.put(hash, verified.key, generation);
-  return verified;
+  return usable ? verifyShared(ctx, services, hash, now) : verifyApiKeyHash(ctx.database.db, hash, now);
+}
+
+/**
+ * A database verification shared by concurrent requests with the same key, its valid outcome cached
+ * under the generation it started with (a change announced meanwhile discards it), an invalid one
+ * dropping any cached entry.
+ */
+function verifyShared(ctx: AppContext, services: KeyServices, hash: string, now: Date): Promise<KeyVerification> {
+  return services.cache.shared(hash, async () => {
+    const generation = services.cache.generation;
+    const verified = await verifyApiKeyHash(ctx.database.db, hash, now);
+    if (verified.outcome === 'valid') {
+      if (services.cacheUsable()) services.cache.put(hash, verified.key, generation);
+    } else {
+      services.cache.drop(hash);
+    }
+    return verified;
+  });
 }
 
 async function callerFromKey(ctx: AppContext, req: Request, res: Response, header: string): Promise<Caller> {
@@ -143,8 +158,12 @@ function cachedCaller(ctx: AppContext, res: Response, header: string): Caller | 
   const services = keyServicesFor(ctx.database, ctx.logger);
   if (!services.cacheUsable()) return undefined;
   const now = ctx.clock.now();
-  const k = services.cache.get(hashApiKey(presented), now);
+  const hash = hashApiKey(presented);
+  const k = services.cache.get(hash, now);
   if (!k) return undefined;
+  if (services.cache.isAging(hash)) {
+    verifyShared(ctx, services, hash, now).catch((err: unknown) => ctx.logger.warn({ err }, 'could not verify a cached key again ahead of its expiry'));
+  }
   services.lastUsed.touch(k.keyId, now);
   return callerFromVerifiedKey(res, k);
 }

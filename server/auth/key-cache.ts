@@ -2,6 +2,12 @@ import type { VerifiedKey } from './verify-key.ts';
 
 /** A valid verification is reused for at most this long, even if no change is ever announced. */
 export const KEY_CACHE_TTL_MS = 10_000;
+/**
+ * An entry older than this is verified again in the background when used, so a busy key is never
+ * left to expire: without it, every request arriving in the round trip after the expiry would look
+ * the key up on its own (measured: a p99 spike every 10 s under load).
+ */
+export const KEY_REFRESH_AFTER_MS = 7_500;
 /** Entries kept at most; the oldest go first. */
 const MAX_ENTRIES = 10_000;
 
@@ -19,6 +25,8 @@ interface Entry {
  */
 export class VerifiedKeyCache {
   private readonly entries = new Map<string, Entry>();
+  /** Verifications under way by key hash, shared by the requests that arrive meanwhile. */
+  private readonly inflight = new Map<string, Promise<unknown>>();
   private _generation = 0;
 
   get generation(): number {
@@ -40,6 +48,32 @@ export class VerifiedKeyCache {
     return entry.key;
   }
 
+  /** A cached entry is old enough to be verified again ahead of its expiry. */
+  isAging(hash: string): boolean {
+    const entry = this.entries.get(hash);
+    return entry !== undefined && Date.now() - entry.storedAtMs > KEY_REFRESH_AFTER_MS;
+  }
+
+  /**
+   * One verification per key hash at a time: requests presenting the same key while one is under way
+   * share its outcome. A forget or clear detaches the verifications under way, so that nobody who
+   * arrives after a change is announced is given a read from before it.
+   */
+  shared<T>(hash: string, verify: () => Promise<T>): Promise<T> {
+    const running = this.inflight.get(hash) as Promise<T> | undefined;
+    if (running) return running;
+    const started = verify().finally(() => {
+      if (this.inflight.get(hash) === started) this.inflight.delete(hash);
+    });
+    this.inflight.set(hash, started);
+    return started;
+  }
+
+  /** Drops one entry (a re-verification found the key no longer valid). */
+  drop(hash: string): void {
+    this.entries.delete(hash);
+  }
+
   put(hash: string, key: VerifiedKey, generation: number): void {
     if (generation !== this._generation) return;
     if (this.entries.size >= MAX_ENTRIES) {
@@ -52,6 +86,7 @@ export class VerifiedKeyCache {
   /** Applies a `key:<id>` or `user:<id>` announcement; anything else empties the cache. */
   forget(payload: string): void {
     this._generation++;
+    this.inflight.clear();
     const [kind, id] = payload.split(':', 2);
     if (kind !== 'key' && kind !== 'user') {
       this.entries.clear();
@@ -64,6 +99,7 @@ export class VerifiedKeyCache {
 
   clear(): void {
     this._generation++;
+    this.inflight.clear();
     this.entries.clear();
   }
 }
