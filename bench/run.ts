@@ -8,6 +8,8 @@ import os from 'node:os';
 import path from 'node:path';
 import { Readable } from 'node:stream';
 import { fileURLToPath } from 'node:url';
+import v8 from 'node:v8';
+import { runInNewContext } from 'node:vm';
 import autocannon from 'autocannon';
 import { create as createMath, all } from 'mathjs';
 import { createKey } from '../server/api/v1/keys/keys.service.ts';
@@ -298,6 +300,9 @@ function p3(): Target {
   };
 }
 
+v8.setFlagsFromString('--expose-gc');
+const collectGarbage = runInNewContext('gc') as () => void;
+
 function touchstoneText(points: number): string {
   const lines = ['! bench sweep: invented series RLC antenna', '# Hz S RI R 50'];
   for (let i = 0; i < points; i++) {
@@ -320,9 +325,14 @@ function p4(): Target {
   // landing in one side of a round moves that round only.
   const WARM_UP = 5;
   for (let i = 0; i < WARM_UP + 31; i++) {
+    // Each timed section starts from a collected heap: a young-generation collection set off by one
+    // section's garbage would otherwise land in whichever section runs next (seen: 1.3–2.9 from run to
+    // run, with the analysis itself under 1 ms of the difference).
+    collectGarbage();
     const t0 = performance.now();
     parseTouchstone(text);
     const parsed = performance.now() - t0;
+    collectGarbage();
     const t1 = performance.now();
     const sweep = parseTouchstone(text);
     analyseSweep(sweep.points, { referenceOhm: sweep.referenceOhm, thresholdSwr: 2 });
