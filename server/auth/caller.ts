@@ -65,7 +65,11 @@ async function verifyKey(ctx: AppContext, presented: string, now: Date): Promise
     const cached = services.cache.get(hash, now);
     if (cached) return { outcome: 'valid', key: cached };
   }
-  return usable ? verifyShared(ctx, services, hash, now) : verifyApiKeyHash(ctx.database.db, hash, now);
+  if (!usable) return verifyApiKeyHash(ctx.database.db, hash, now);
+  const verified = await verifyShared(ctx, services, hash, now);
+  // A shared lookup was judged at its first caller's time; a key that expired since is expired for this one.
+  if (verified.outcome === 'valid' && verified.key.expiresAt && verified.key.expiresAt <= now) return { outcome: 'expired' };
+  return verified;
 }
 
 /**

@@ -17,12 +17,14 @@ type Listener = (req: http.IncomingMessage, res: http.ServerResponse) => void;
  * `listener` defaults to the app itself; pass a wrapper to answer some requests before the app does.
  */
 export function createAppServer(app: Express, listener: Listener = app, options: http.ServerOptions = {}): http.Server {
-  function AppRequest(this: http.IncomingMessage, ...args: ConstructorParameters<typeof http.IncomingMessage>) {
-    http.IncomingMessage.apply(this, args);
+  // Reflect.construct builds a real IncomingMessage/ServerResponse whose prototype is the function's
+  // (app.request/app.response), whether Node's constructors are plain functions or classes.
+  function AppRequest(...args: ConstructorParameters<typeof http.IncomingMessage>) {
+    return Reflect.construct(http.IncomingMessage, args, AppRequest) as http.IncomingMessage;
   }
   AppRequest.prototype = app.request;
-  function AppResponse(this: http.ServerResponse, ...args: ConstructorParameters<typeof http.ServerResponse>) {
-    http.ServerResponse.apply(this, args);
+  function AppResponse(...args: ConstructorParameters<typeof http.ServerResponse>) {
+    return Reflect.construct(http.ServerResponse, args, AppResponse) as http.ServerResponse;
   }
   AppResponse.prototype = app.response;
   return http.createServer(

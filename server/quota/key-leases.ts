@@ -22,6 +22,8 @@ const RECLAIM_WAIT_MS = 250;
 /** Leases for a call whose granted hits belonged to a window already over (clocks a little apart), and the pause between the later ones. */
 const MAX_WINDOW_RETRIES = 8;
 const WINDOW_RETRY_WAIT_MS = 50;
+/** Pause of background top-ups after one that got less than half of what it asked for. */
+const TOP_UP_QUIET_MS = 1_000;
 /** After giving units back on request, a process reserves only what it needs for this long. */
 const NEED_ONLY_MS = 10_000;
 /** The demand that sizes the next reservation is measured over windows of this length. */
@@ -92,6 +94,8 @@ class KeyDayPool {
   /** The running lease is a top-up (no call waits on it), so calls may still spend what the pool holds. */
   toppingUp = false;
   topUpAsked = false;
+  /** No top-ups before this time: the last one got less than half of what it asked for (the quota is running out). */
+  topUpQuietUntilMs = 0;
   /** The per-minute window the pool's calls count against (from the first call). */
   burst: MeteredCall['burst'];
   giveBackAsked = false;
@@ -195,8 +199,9 @@ export class KeyLeases {
     const nowMs = Date.now();
     pool.lastUseMs = nowMs;
     // While a lease runs, its group was sized on what the pool holds: later calls wait for the next one.
-    // A top-up is sized on nobody's need, so calls keep spending during it.
-    if ((!pool.running || pool.toppingUp) && pool.waiting.length === 0) {
+    // A top-up is sized on nobody's need, so calls keep spending during it (unless a give-back was asked:
+    // then the units are on their way back, as a changed quota must apply at once).
+    if ((!pool.running || (pool.toppingUp && !pool.giveBackAsked)) && pool.waiting.length === 0) {
       const decided = this.admit(pool, call, nowMs);
       if (decided) {
         this.topUpWhenLow(pool, nowMs);
@@ -214,7 +219,7 @@ export class KeyLeases {
    * target, a lease for the difference runs in the background, so calls rarely wait for a round trip.
    */
   private topUpWhenLow(pool: KeyDayPool, nowMs: number): void {
-    if (pool.running || pool.topUpAsked) return;
+    if (pool.running || pool.topUpAsked || nowMs < pool.topUpQuietUntilMs) return;
     const target = pool.extra(nowMs);
     const lowUnits = pool.units * 2 < target.units;
     const lowHits = pool.burst !== undefined && pool.hits * 2 < target.hits;
@@ -392,6 +397,9 @@ export class KeyLeases {
       if (w.call.burst) hits += 1;
     }
     const extra = pool.extra(nowMs);
+    // Leasing again for hits of a window that was over: only what the calls need, so that the last
+    // moments of a window the database still counts are not reserved ahead for nobody.
+    const retryingWindow = short.some((w) => (w.windowRetries ?? 0) > 0);
     const windowBefore = pool.resetAt?.getTime();
     const grant = await leaseKeyUnits(this.db, {
       instanceId: this.instanceId,
@@ -401,7 +409,7 @@ export class KeyLeases {
       needHits: Math.max(0, hits - pool.hits),
       // Topped up to the advance target, never beyond: what is left over after the group counts.
       extraUnits: Math.max(0, extra.units - Math.max(0, pool.units - units)),
-      extraHits: Math.max(0, extra.hits - Math.max(0, pool.hits - hits)),
+      extraHits: retryingWindow ? 0 : Math.max(0, extra.hits - Math.max(0, pool.hits - hits)),
       unspent: pool.units,
       burst: short[0]!.call.burst,
     });
@@ -448,7 +456,9 @@ export class KeyLeases {
   private takeGrant(pool: KeyDayPool, grant: Awaited<ReturnType<typeof leaseKeyUnits>>, windowBefore: number | undefined): boolean {
     pool.units += grant.units;
     pool.leased = true;
-    pool.reportedUnits = pool.units;
+    // The lease wrote the row from the units held when it started; calls may have spent some since (a
+    // top-up), and a flush under way may overwrite the row: the next flush writes it again regardless.
+    pool.reportedUnits = -1;
     pool.reportedAtMs = Date.now();
     pool.used = grant.used;
     pool.quota = grant.quota;
@@ -486,6 +496,9 @@ export class KeyLeases {
       burst: pool.burst,
     });
     this.takeGrant(pool, grant, windowBefore);
+    // The database grants at most an eighth of what is free: near the end of a quota, asking again on
+    // every call would only lock the key's row for nothing.
+    if (grant.units * 2 < extraUnits) pool.topUpQuietUntilMs = Date.now() + TOP_UP_QUIET_MS;
   }
 
   /** Asks the other processes holding units of this key and day to give them back, and waits for them. */

@@ -85,6 +85,19 @@ describe('JSON batches', () => {
     expect(await key.used()).toBe(10_000);
   });
 
+  it('answers a small batch in one piece with its Content-Length, a big one in pieces that parse as one document', async () => {
+    const key = await keyWithQuota(2_000);
+    const small = await request(ctx.app).post('/api/v1/batch').set(key.headers).send({ items: [{ op: 'mismatch', input: { swr: 2 } }] }).expect(200);
+    expect(Number(small.headers['content-length'])).toBe(Buffer.byteLength(small.text));
+    expect(small.body.results).toEqual([{ ok: true, output: expect.objectContaining({ swr: 2 }) }]);
+    // 1,500 items cross both the ~50 KB pieces and a yield to the event loop.
+    const items = Array.from({ length: 1_500 }, (_, i) => ({ op: 'mismatch', input: { swr: 1 + i / 1_000 } }));
+    const big = await request(ctx.app).post('/api/v1/batch').set(key.headers).send({ items }).expect(200);
+    const results = big.body.results as Outcome[];
+    expect(results).toHaveLength(1_500);
+    results.forEach((r, i) => expect(r.output!.swr).toBeCloseTo(1 + i / 1_000, 12));
+  });
+
   it('refuses a batch that does not fit the remaining quota whole (429) before any work, spending nothing', async () => {
     const key = await keyWithQuota(9_999);
     const items = Array.from({ length: 10_000 }, () => ({ op: 'mismatch', input: { swr: 2 } }));

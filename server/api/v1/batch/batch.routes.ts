@@ -171,9 +171,8 @@ export function batchRouter(ctx: AppContext): Router {
         const outcome: ItemOutcome = runItem(items[i], `items.${i}`, env, req.log);
         piece += (i === 0 ? '' : ',') + JSON.stringify(outcome);
       }
-      res.write(`${piece}]}`);
-      res.uncork();
-      res.end();
+      // end() sends what is corked too; a batch that fits one piece keeps its Content-Length.
+      res.end(`${piece}]}`);
     },
   );
 
