@@ -17,14 +17,17 @@ type Listener = (req: http.IncomingMessage, res: http.ServerResponse) => void;
  * `listener` defaults to the app itself; pass a wrapper to answer some requests before the app does.
  */
 export function createAppServer(app: Express, listener: Listener = app, options: http.ServerOptions = {}): http.Server {
-  // Reflect.construct builds a real IncomingMessage/ServerResponse whose prototype is the function's
-  // (app.request/app.response), whether Node's constructors are plain functions or classes.
-  function AppRequest(...args: ConstructorParameters<typeof http.IncomingMessage>) {
-    return Reflect.construct(http.IncomingMessage, args, AppRequest) as http.IncomingMessage;
+  // Node's constructors are plain functions, called here on an object that `new` already gave the
+  // app's prototype. (Reflect.construct with a new.target would also work, but V8 then builds each
+  // object on its slow path: measured at a quarter of the throughput, with the promotions back.)
+  // Should a future Node make them classes, the server is made the ordinary way: slower, still correct.
+  if (isClass(http.IncomingMessage) || isClass(http.ServerResponse)) return http.createServer(options, listener);
+  function AppRequest(this: http.IncomingMessage, ...args: ConstructorParameters<typeof http.IncomingMessage>) {
+    http.IncomingMessage.apply(this, args);
   }
   AppRequest.prototype = app.request;
-  function AppResponse(...args: ConstructorParameters<typeof http.ServerResponse>) {
-    return Reflect.construct(http.ServerResponse, args, AppResponse) as http.ServerResponse;
+  function AppResponse(this: http.ServerResponse, ...args: ConstructorParameters<typeof http.ServerResponse>) {
+    http.ServerResponse.apply(this, args);
   }
   AppResponse.prototype = app.response;
   return http.createServer(
@@ -35,4 +38,8 @@ export function createAppServer(app: Express, listener: Listener = app, options:
     },
     listener,
   );
+}
+
+function isClass(constructor: unknown): boolean {
+  return typeof constructor === 'function' && /^class\b/.test(Function.prototype.toString.call(constructor));
 }
