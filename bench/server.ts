@@ -17,8 +17,9 @@ const app = createApp({
   config,
   logger: pino({ level: 'silent' }),
   first: (outer) => {
-    // P1's ceiling: a bare JSON route, body parsed and a small JSON answer.
-    outer.post('/bench/bare', express.json(), (_req, res) => {
+    // P1's strict ceiling: a bare JSON route ahead of everything, even the server-wide middleware
+    // every route of this server passes (reported beside the ratio, not judged).
+    outer.post('/bench/bare-first', express.json(), (_req, res) => {
       res.json({ ok: true });
     });
     // P2's ceiling: parse the batch payload and echo it back.
@@ -43,6 +44,14 @@ const app = createApp({
     });
     outer.get('/bench/memory', (_req, res) => {
       res.json({ rssBytes: process.memoryUsage().rss, maxRssBytes: process.resourceUsage().maxRSS * 1024 });
+    });
+  },
+  // P1's reference: a bare JSON route in the same server, where any of its routes sits. It gets what
+  // every route gets (request id, security headers, body limit, parsed JSON body; under /api, the API's
+  // header set) and none of a calculation's own work: no key check, quota, validation or calculation.
+  beforeApi: (app) => {
+    app.post('/api/bench/bare', (_req, res) => {
+      res.json({ ok: true });
     });
   },
 });

@@ -26,8 +26,13 @@ export interface AppDependencies {
   logger?: Logger;
   /** Outgoing mail; index.ts passes SMTP_URL's or the local capture server's. Without one, mail is logged and dropped. */
   mailer?: Mailer;
-  /** Routes mounted before everything else (the benchmark's reference routes, in the same app as the API). */
+  /** Routes mounted before everything else (the benchmark's probes and reference routes, in the same app as the API). */
   first?: (app: Express) => void;
+  /**
+   * Routes mounted where any route of this server sits: after the server-wide middleware (request ids,
+   * security headers, body limits, JSON bodies), before the API (the benchmark's same-server reference).
+   */
+  beforeApi?: (app: Express) => void;
 }
 
 /** Routes that parse their own body (see server/api/v1/batch). */
@@ -76,6 +81,7 @@ export function createApp(deps: AppDependencies): Express {
   // POST /api/v1/batch reads its own body: a larger JSON limit for that route alone, and NDJSON streamed unbuffered.
   app.use((req, res, next) => (OWN_BODY_PATH.test(req.path) ? next() : jsonBody(req, res, next)));
 
+  deps.beforeApi?.(app);
   // The API first: calculations are the hot path, so they pass as few layers as possible.
   const api = express.Router();
   api.get('/openapi.json', (_req, res) => {

@@ -172,12 +172,27 @@ function cachedCaller(ctx: AppContext, res: Response, header: string): Caller | 
   return callerFromVerifiedKey(res, k);
 }
 
+/**
+ * The caller and limits of a verified key, made once per verification: the key cache hands out the
+ * same record until the key changes, so the hot path allocates nothing here. Both are frozen, as every
+ * request of that key shares them.
+ */
+const callersOfKeys = new WeakMap<VerifiedKey, { caller: Caller; limits: CallerLimits }>();
+
 function callerFromVerifiedKey(res: Response, k: VerifiedKey): Caller {
-  res.locals.callerLimits = {
-    burstPerMinute: k.burstPerMinute,
-    key: { id: k.keyId, name: k.name, displayStart: k.displayStart, dailyQuota: k.dailyQuota, ownerEmail: k.ownerEmail },
-  };
-  return { kind: 'key', userId: k.userId, organisationId: k.organisationId, role: k.role, keyId: k.keyId };
+  let made = callersOfKeys.get(k);
+  if (!made) {
+    made = {
+      caller: Object.freeze({ kind: 'key', userId: k.userId, organisationId: k.organisationId, role: k.role, keyId: k.keyId }),
+      limits: Object.freeze({
+        burstPerMinute: k.burstPerMinute,
+        key: Object.freeze({ id: k.keyId, name: k.name, displayStart: k.displayStart, dailyQuota: k.dailyQuota, ownerEmail: k.ownerEmail }),
+      }),
+    };
+    callersOfKeys.set(k, made);
+  }
+  res.locals.callerLimits = made.limits;
+  return made.caller;
 }
 
 /**
@@ -257,17 +272,23 @@ async function meterSession(ctx: AppContext, endpoint: string, units: number, re
   await recordConsoleUsage(ctx.database.db, { organisationId: caller.organisationId, userId: caller.userId, endpoint, day: utcDay(ctx.clock.now()), units });
 }
 
-const partitionKeys = new Map<string, string>();
+/**
+ * The `RateLimit-Policy` field of a key (constant while its limits are): worked out once, as a hash
+ * and two formatted items per request add up on the hot path. Bounded like any per-key memo.
+ */
+const keyPolicies = new Map<string, { burstLimit: number; quota: number; burstItem: string; field: string }>();
 
-/** express-rate-limit's draft-8 partition key, so key and console answers carry the same header shape (memoised: a hash per request adds up). */
-function partitionKey(key: string): string {
-  let pk = partitionKeys.get(key);
-  if (pk === undefined) {
-    if (partitionKeys.size >= 10_000) partitionKeys.clear();
-    pk = Buffer.from(createHash('sha256').update(key).digest('hex').slice(0, 12)).toString('base64');
-    partitionKeys.set(key, pk);
+function keyPolicy(burstKey: string, burstLimit: number, quota: number): { burstItem: string; field: string } {
+  let policy = keyPolicies.get(burstKey);
+  if (policy === undefined || policy.burstLimit !== burstLimit || policy.quota !== quota) {
+    if (keyPolicies.size >= 10_000) keyPolicies.clear();
+    // express-rate-limit's draft-8 partition key, so key and console answers carry the same header shape.
+    const pk = Buffer.from(createHash('sha256').update(burstKey).digest('hex').slice(0, 12)).toString('base64');
+    const burstItem = `"burst"; q=${burstLimit}; w=${BURST_WINDOW_MS / 1000}; pk=:${pk}:`;
+    policy = { burstLimit, quota, burstItem, field: `${burstItem}, "daily"; q=${quota}; w=${SECONDS_PER_DAY}` };
+    keyPolicies.set(burstKey, policy);
   }
-  return pk;
+  return policy;
 }
 
 /**
@@ -303,27 +324,28 @@ function applyKeyDecision(
 ): void {
   const { key, burstKey, units, now, day } = c;
   const burst = decision.burst;
+  const quota = decision.quota;
   // Each field is set once with its items joined (RFC 9651 lists), not appended item by item.
   let limit = '';
-  let policy = '';
+  let policy: string | undefined;
   if (burst) {
     const burstResetS = Math.max(0, Math.ceil((burst.resetAt.getTime() - Date.now()) / 1000));
-    limit = `"burst"; r=${Math.max(0, burst.limit - burst.totalHits)}; t=${burstResetS}`;
-    policy = `"burst"; q=${burst.limit}; w=${BURST_WINDOW_MS / 1000}; pk=:${partitionKey(burstKey)}:`;
+    limit = `"burst"; r=${Math.max(0, burst.limit - burst.totalHits)}; t=${burstResetS}, `;
+    const known = keyPolicy(burstKey, burst.limit, quota);
     if (decision.refusedBy === 'burst') {
-      res.setHeader('RateLimit', limit);
-      res.setHeader('RateLimit-Policy', policy);
+      res.setHeader('RateLimit', limit.slice(0, -2));
+      res.setHeader('RateLimit-Policy', known.burstItem);
       const waitS = Math.max(1, burstResetS);
       throw new ApiError('tooManyRequests', `More than ${burst.limit} requests in a minute; wait ${waitS} s (Retry-After) or spread the calls out.`, {
         headers: { 'Retry-After': String(waitS) },
       });
     }
+    policy = known.field;
   }
-  const quota = decision.quota;
   const resetS = secondsUntilUtcMidnight(now);
   const remaining = Math.max(0, quota - decision.used);
-  res.setHeader('RateLimit', `${limit ? `${limit}, ` : ''}"daily"; r=${remaining}; t=${resetS}`);
-  res.setHeader('RateLimit-Policy', `${policy ? `${policy}, ` : ''}"daily"; q=${quota}; w=${SECONDS_PER_DAY}`);
+  res.setHeader('RateLimit', `${limit}"daily"; r=${remaining}; t=${resetS}`);
+  res.setHeader('RateLimit-Policy', policy ?? `"daily"; q=${quota}; w=${SECONDS_PER_DAY}`);
   if (!decision.admitted) {
     const need = units > 1 ? ` This request needs ${units} units and ${remaining} remain.` : '';
     throw new ApiError(

@@ -11,7 +11,7 @@ import { createTestApp, TEST_DEVELOPER, type TestApp } from '../helpers/app.ts';
 
 // Security properties that tests/http/session.test.ts and tests/http/roles.test.ts do not already
 // prove: fixation across an existing session, CSRF on every cookie-authenticated write of the
-// OpenAPI document, secrets absent from responses and logs, and helmet headers on every surface.
+// OpenAPI document, secrets absent from responses and logs, and security headers on every surface.
 
 let ctx: TestApp;
 let logLines: string[];
@@ -154,19 +154,37 @@ describe('keys and passwords never reach the logs', () => {
   });
 });
 
-describe('security headers (helmet) on every surface', () => {
-  const surfaces = [
+describe('security headers on every surface', () => {
+  // API answers get the OWASP REST Security Cheat Sheet's set (from memory: no-store, frame-ancestors
+  // 'none', nosniff, X-Frame-Options DENY, HSTS); pages get helmet's document set.
+  const api = [
     { what: 'an API answer', path: '/api/v1/cables', auth: true },
     { what: 'an API problem', path: '/api/v1/mismatch', auth: false },
     { what: 'the OpenAPI document', path: '/api/v1/openapi.json', auth: false },
-    { what: 'the API reference', path: '/docs/', auth: false },
-    { what: 'the console', path: '/', auth: false },
+    { what: 'an unknown API path', path: '/api/v2/nothing', auth: false },
+  ];
+  const pages = [
+    { what: 'the API reference', path: '/docs/' },
+    { what: 'the console', path: '/' },
   ];
 
-  it.each(surfaces)('are sent with $what ($path)', async ({ path, auth }) => {
-    let req = request(ctx.app).get(path).set('Accept', 'text/html,application/json');
+  it.each(api)('API set with $what ($path)', async ({ path, auth }) => {
+    let req = request(ctx.app).get(path).set('Accept', 'application/json');
     if (auth) req = req.set(ctx.auth);
     const res = await req;
+    expect(res.status, res.text.slice(0, 200)).toBeLessThan(500);
+    expect(res.headers['cache-control']).toBe('no-store');
+    expect(res.headers['content-security-policy']).toBe("default-src 'none'; frame-ancestors 'none'");
+    expect(res.headers['x-content-type-options']).toBe('nosniff');
+    expect(res.headers['x-frame-options']).toBe('DENY');
+    expect(res.headers['x-powered-by']).toBeUndefined();
+    // Document-only headers stay off JSON answers.
+    expect(res.headers['cross-origin-opener-policy']).toBeUndefined();
+    expect(res.headers['x-dns-prefetch-control']).toBeUndefined();
+  });
+
+  it.each(pages)("helmet's document set with $what ($path)", async ({ path }) => {
+    const res = await request(ctx.app).get(path).set('Accept', 'text/html,application/json');
     expect(res.status, res.text.slice(0, 200)).toBeLessThan(500);
     expect(res.headers['content-security-policy']).toMatch(/default-src 'self'/);
     expect(res.headers['x-content-type-options']).toBe('nosniff');
@@ -178,7 +196,9 @@ describe('security headers (helmet) on every surface', () => {
 
   it('adds Strict-Transport-Security in production and leaves it out on local plain HTTP', async () => {
     const production = createApp({ database: ctx.database, config: testConfig({ ...ctx.config, mode: 'production' }), logger: pino({ level: 'silent' }) });
-    expect((await request(production).get('/healthz')).headers['strict-transport-security']).toMatch(/max-age=\d+/);
-    expect((await request(ctx.app).get('/healthz')).headers['strict-transport-security']).toBeUndefined();
+    for (const path of ['/healthz', '/api/v1/openapi.json']) {
+      expect((await request(production).get(path)).headers['strict-transport-security'], path).toBe('max-age=31536000; includeSubDomains');
+      expect((await request(ctx.app).get(path)).headers['strict-transport-security'], path).toBeUndefined();
+    }
   });
 });
