@@ -19,6 +19,7 @@ import { migrateDatabase } from '../server/db/migrate.ts';
 import { seedDemo } from '../server/db/seed.ts';
 import { lineFromLossSpec, lineInputImpedance } from '../shared/rf/line.ts';
 import { analyseSweep, parseTouchstone } from '../shared/sweep/index.ts';
+import { pacedLoad } from './paced.ts';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const RUNS = Number(process.env.BENCH_RUNS ?? 5);
@@ -78,9 +79,9 @@ async function serverCpuUs(url: string): Promise<number> {
 }
 
 /** Requests per second over one bounded load, and the server's CPU time per request (µs). */
-async function throughput(url: string, body: string, headers: Record<string, string>): Promise<{ rps: number; cpuUsPerRequest: number }> {
+async function throughput(url: string, body: string, headers: Record<string, string>, seconds = SECONDS): Promise<{ rps: number; cpuUsPerRequest: number }> {
   const cpuBefore = await serverCpuUs(url);
-  const r = await load({ url, method: 'POST', body, headers: { 'content-type': 'application/json', ...headers } });
+  const r = await load({ url, method: 'POST', body, headers: { 'content-type': 'application/json', ...headers }, duration: seconds });
   const cpu = (await serverCpuUs(url)) - cpuBefore;
   if (r.non2xx > 0) throw new Error(`${url}: ${r.non2xx} non-2xx answers during the load`);
   // Requests over the measured time: autocannon's per-second average is too coarse for 5-second runs.
@@ -107,8 +108,10 @@ async function p1(base: string, key: string): Promise<Target> {
   for (const [url, headers] of [[bareUrl, {}], [firstUrl, {}], [calcUrl, bearer]] as const) {
     await autocannon({ connections: CONNECTIONS, duration: 1, url, method: 'POST', body, headers: { 'content-type': 'application/json', ...headers } });
   }
-  // Reference and calculation runs alternate, and the ratio is the median of each round's: this
-  // machine's speed drifts by tens of percent within a minute, and a drift must not land on one side only.
+  // Reference and calculation runs alternate in short slices, and the ratio is the median of each
+  // pair's: this VM's speed drifts by tens of percent within a minute (other guests on the host), and
+  // only runs close in time see the same machine. Each pair runs in alternate order, so a drift within
+  // a pair does not always favour the same route; the strict reference follows each pair.
   const bareRates: number[] = [];
   const firstRates: number[] = [];
   const calcRates: number[] = [];
@@ -116,10 +119,16 @@ async function p1(base: string, key: string): Promise<Target> {
   const firstRatios: number[] = [];
   const bareCpu: number[] = [];
   const calcCpu: number[] = [];
-  for (let i = 0; i < RUNS; i++) {
-    const b = await throughput(bareUrl, body, {});
-    const f = await throughput(firstUrl, body, {});
-    const c = await throughput(calcUrl, body, bearer);
+  const pairs = 2 * RUNS;
+  const slice = Math.max(1, SECONDS / 2);
+  for (let i = 0; i < pairs; i++) {
+    const order = i % 2 === 0 ? [bareUrl, calcUrl] : [calcUrl, bareUrl];
+    const runs = new Map<string, Awaited<ReturnType<typeof throughput>>>();
+    for (const url of order) runs.set(url, await throughput(url, body, url === calcUrl ? bearer : {}, slice));
+    const b = runs.get(bareUrl)!;
+    const c = runs.get(calcUrl)!;
+    const f = await throughput(firstUrl, body, {}, slice);
+    if (process.env.BENCH_DEBUG) console.error(`[bench] P1 pair ${i}: bare ${Math.round(b.rps)}, calc ${Math.round(c.rps)}, bare-first ${Math.round(f.rps)} req/s; ratio ${(c.rps / b.rps).toFixed(3)}`);
     bareRates.push(b.rps);
     firstRates.push(f.rps);
     calcRates.push(c.rps);
@@ -130,12 +139,9 @@ async function p1(base: string, key: string): Promise<Target> {
   }
   const calc = median(calcRates);
   const half = Math.max(1, Math.round(calc / 2));
-  // The paced runs use the generator's own HTTP client: one unmeasured second on each route compiles
-  // its code first (a cold client added up to ~200 ms to the first run's latencies). Calculation and
-  // bare runs alternate for the same reason as above; the bare route's p99 at the same rate says how
+  // Calculation and bare paced runs alternate for the same reason as above; each measures steady state
+  // (after a second of the same load, see pacedLoad), and the bare route's p99 at the same rate says how
   // much of the calculation's the machine and the load generator (sharing the same cores) cause.
-  await pacedP99(calcUrl, body, bearer, half, 1);
-  await pacedP99(bareUrl, body, {}, half, 1);
   const p99s: number[] = [];
   const loopMaxes: number[] = [];
   const bareP99s: number[] = [];
@@ -170,75 +176,33 @@ async function p1(base: string, key: string): Promise<Target> {
 }
 
 /**
- * p99 latency (ms) at a steady `rate` of requests per second for `seconds` seconds. autocannon's own rate
- * limit sends each second's budget in one burst at the start of the second, which measures a saturated
- * server again; here requests leave evenly spaced, over up to CONNECTIONS keep-alive connections, and
- * each latency counts from the moment the request was due (a late start is the server's delay too).
+ * p99 latency (ms) at a steady `rate` of requests per second, over SECONDS seconds after a lead-in of
+ * PACED_LEAD_IN_S. autocannon's own rate limit sends each second's budget in one burst at the start of
+ * the second, which measures a saturated server again; here requests leave evenly spaced, over up to
+ * CONNECTIONS keep-alive connections (bench/paced.ts), and each latency counts from the moment the
+ * request was due (a late start is the server's delay too).
  */
 let pacedFailures = 0;
+/** Each paced run starts with this much unmeasured load at the same rate (see pacedLoad). */
+const PACED_LEAD_IN_S = 1;
 
-async function pacedP99(url: string, body: string, headers: Record<string, string>, rate: number, seconds = SECONDS): Promise<number> {
-  const agent = new http.Agent({ keepAlive: true, maxSockets: CONNECTIONS });
-  const total = Math.round(rate * seconds);
-  const latencies: number[] = [];
-  const lateness: number[] = [];
-  const slowAt: number[] = [];
-  const started = performance.now();
-  const inFlight = new Set<Promise<void>>();
-  let sent = 0;
-  let failed = 0;
-  const failures: string[] = [];
-  while (sent < total) {
-    const due = started + (sent * 1000) / rate;
-    const wait = due - performance.now();
-    if (wait > 1) await new Promise((r) => setTimeout(r, wait - 1));
-    else if (wait > 0) await new Promise((r) => setImmediate(r));
-    while (sent < total && started + (sent * 1000) / rate <= performance.now()) {
-      const dueAt = started + (sent * 1000) / rate;
-      lateness.push(performance.now() - dueAt);
-      sent++;
-      const p: Promise<void> = new Promise<void>((resolve) => {
-        const req = http.request(url, { method: 'POST', agent, headers: { 'content-type': 'application/json', ...headers } }, (res) => {
-          const chunks: Buffer[] = [];
-          res.on('data', (c: Buffer) => chunks.push(c));
-          res.on('end', () => {
-            if (res.statusCode !== 200) {
-              failed++;
-              failures.push(`${res.statusCode}: ${Buffer.concat(chunks).toString('utf8').slice(0, 300)}`);
-            }
-            latencies.push(performance.now() - dueAt);
-            if (process.env.BENCH_DEBUG && performance.now() - dueAt > 10) slowAt.push(Math.floor((dueAt - started) / 100));
-            resolve();
-          });
-        });
-        req.on('error', (err) => {
-          failed++;
-          failures.push(String(err));
-          resolve();
-        });
-        req.end(body);
-      }).finally(() => inFlight.delete(p));
-      inFlight.add(p);
-    }
-  }
-  await Promise.all(inFlight);
-  agent.destroy();
+async function pacedP99(url: string, body: string, headers: Record<string, string>, rate: number): Promise<number> {
+  const { latencies, lateness, failures, dueAt } = await pacedLoad(url, body, headers, { rate, seconds: SECONDS, connections: CONNECTIONS, leadInSeconds: PACED_LEAD_IN_S });
   // A failed request is reported, not hidden: it counts in the p99 as the slowest answer there is.
-  if (failed > 0) {
-    console.error(`[bench] ${url}: ${failed} of ${total} requests failed during the paced load: ${failures.slice(0, 3).join(' | ')}`);
-    for (let i = 0; i < failed; i++) latencies.push(Number.POSITIVE_INFINITY);
-  }
-  pacedFailures += failed;
-  lateness.sort((a, b) => a - b);
-  if (process.env.BENCH_DEBUG) console.error(`[bench] ${url} at ${rate}/s: send lateness p50 ${lateness[Math.floor(lateness.length / 2)]!.toFixed(2)} p99 ${lateness[Math.floor(lateness.length * 0.99)]!.toFixed(2)} ms`);
-  latencies.sort((a, b) => a - b);
+  if (failures.length > 0) console.error(`[bench] ${url}: ${failures.length} of ${latencies.length} requests failed during the paced load: ${failures.slice(0, 3).join(' | ')}`);
+  pacedFailures += failures.length;
+  const sorted = [...latencies].sort((a, b) => a - b);
   if (process.env.BENCH_DEBUG) {
-    const q = (f: number) => latencies[Math.min(latencies.length - 1, Math.floor(latencies.length * f))]!.toFixed(1);
-    const buckets = new Map<number, number>();
-    for (const b of slowAt) buckets.set(b, (buckets.get(b) ?? 0) + 1);
-    console.error(`[bench]   latency p50 ${q(0.5)} p90 ${q(0.9)} p99 ${q(0.99)} p99.9 ${q(0.999)} max ${q(1)} ms; over 10 ms by 100-ms slot: ${[...buckets].map(([k, v]) => `${k}:${v}`).join(' ')}`);
+    const late = [...lateness].sort((a, b) => a - b);
+    const q = (xs: number[], f: number) => xs[Math.min(xs.length - 1, Math.floor(xs.length * f))]!.toFixed(1);
+    const slow = new Map<number, number>();
+    latencies.forEach((ms, i) => {
+      if (ms > 10) slow.set(Math.floor(dueAt[i]! / 100), (slow.get(Math.floor(dueAt[i]! / 100)) ?? 0) + 1);
+    });
+    console.error(`[bench] ${url} at ${rate}/s: send lateness p50 ${q(late, 0.5)} p99 ${q(late, 0.99)} ms`);
+    console.error(`[bench]   latency p50 ${q(sorted, 0.5)} p90 ${q(sorted, 0.9)} p99 ${q(sorted, 0.99)} p99.9 ${q(sorted, 0.999)} max ${q(sorted, 1)} ms; over 10 ms by 100-ms slot: ${[...slow].map(([k, v]) => `${k}:${v}`).join(' ')}`);
   }
-  return latencies[Math.min(latencies.length - 1, Math.floor(latencies.length * 0.99))]!;
+  return sorted[Math.min(sorted.length - 1, Math.floor(sorted.length * 0.99))]!;
 }
 
 function post(url: string, body: string | Readable, headers: Record<string, string>): Promise<{ status: number; ms: number; bytes: number }> {
