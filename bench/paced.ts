@@ -105,7 +105,8 @@ export async function pacedLoad(
     complete(c, failure);
   };
 
-  const all = await Promise.all(
+  const made: Connection[] = [];
+  const opening = Promise.all(
     Array.from(
       { length: connections },
       () =>
@@ -115,6 +116,7 @@ export async function pacedLoad(
           socket.setNoDelay(true);
           socket.on('data', (chunk: Buffer) => onData(c, chunk));
           socket.on('error', reject);
+          made.push(c);
           socket.on('close', () => {
             live--;
             if (c.busyDue !== undefined) complete(c, `${url}: the connection closed during a request`);
@@ -135,13 +137,23 @@ export async function pacedLoad(
         }),
     ),
   );
+  let all: Connection[];
+  try {
+    all = await opening;
+  } catch (err) {
+    for (const c of made) c.socket.destroy();
+    throw err;
+  }
   free.push(...all);
 
   started = performance.now();
   let due = 0;
   while (due < total) {
-    const at = started + (due * 1000) / rate;
-    const wait = at - performance.now();
+    // Timers for waits over a millisecond, then a spin on setImmediate, so that requests leave evenly
+    // spaced. Timers alone (about 1 ms granularity) send each tick's requests in one burst: measured
+    // here, that raised p50 from 0.1 to 1.5 ms and p99 of both routes several times over, worse than
+    // the core that the spin keeps busy.
+    const wait = started + (due * 1000) / rate - performance.now();
     if (wait > 1) await new Promise((r) => setTimeout(r, wait - 1));
     else if (wait > 0) await new Promise((r) => setImmediate(r));
     while (due < total && started + (due * 1000) / rate <= performance.now()) {

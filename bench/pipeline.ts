@@ -51,12 +51,23 @@ const routes = (process.env.PIPELINE_ROUTES ?? '/api/bench/bare:0,/bench/bare-fi
   return { path: path!, raw: Buffer.from(`${head}Content-Length: ${Buffer.byteLength(body)}\r\n\r\n${body}`) };
 });
 
-/** An in-memory connection: counts an answer when a write ends a JSON body (these routes never chunk). */
+/**
+ * An in-memory connection: counts an answer when a write ends a JSON body (these routes never chunk),
+ * and stops the tool at the first answer that is not a 200 (a problem would be timed as a success).
+ */
 function connection(onAnswer: (socket: Duplex, bytes: number) => void): Duplex {
   const endsJson = (c: Buffer | string) => (typeof c === 'string' ? c.endsWith('}') : c[c.length - 1] === 0x7d);
+  const checkStatus = (c: Buffer | string) => {
+    const start = c.slice(0, 12).toString();
+    if (start.startsWith('HTTP/1.1 ') && start !== 'HTTP/1.1 200') {
+      console.error(`[pipeline] an answer was not 200: ${c.toString().slice(0, 400)}`);
+      process.exit(1);
+    }
+  };
   const socket: Duplex = new Duplex({
     read() {},
     write(chunk: Buffer, _encoding, done) {
+      checkStatus(chunk);
       if (endsJson(chunk)) onAnswer(socket, chunk.length);
       done();
     },
@@ -64,6 +75,7 @@ function connection(onAnswer: (socket: Duplex, bytes: number) => void): Duplex {
       let bytes = 0;
       let last: Buffer | string | undefined;
       for (const { chunk } of chunks as { chunk: Buffer | string }[]) {
+        checkStatus(chunk);
         bytes += chunk.length;
         if (chunk.length > 0) last = chunk;
       }
@@ -81,11 +93,15 @@ function run(raw: Buffer, n: number): Promise<{ us: number; bytes: number }> {
     let sent = 0;
     let answered = 0;
     let bytes = 0;
+    const sockets: Duplex[] = [];
     const started = performance.now();
     const onAnswer = (socket: Duplex, size: number) => {
       answered++;
       bytes += size;
-      if (answered === n) resolve({ us: ((performance.now() - started) * 1000) / n, bytes: bytes / n });
+      if (answered === n) {
+        resolve({ us: ((performance.now() - started) * 1000) / n, bytes: bytes / n });
+        for (const s of sockets) s.destroy();
+      }
       else if (sent < n) {
         sent++;
         setImmediate(() => socket.push(raw));
@@ -93,6 +109,7 @@ function run(raw: Buffer, n: number): Promise<{ us: number; bytes: number }> {
     };
     for (let i = 0; i < SOCKETS; i++) {
       const socket = connection(onAnswer);
+      sockets.push(socket);
       server.emit('connection', socket);
       sent++;
       socket.push(raw);
@@ -120,7 +137,11 @@ if (process.env.PIPELINE_PROFILE) {
   const { profile } = await profiler.post('Profiler.stop');
   writeFileSync(process.env.PIPELINE_PROFILE, JSON.stringify(profile));
 }
-const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)]!;
+const median = (xs: number[]) => {
+  const sorted = [...xs].sort((a, b) => a - b);
+  const mid = Math.floor(sorted.length / 2);
+  return sorted.length % 2 === 1 ? sorted[mid]! : (sorted[mid - 1]! + sorted[mid]!) / 2;
+};
 for (const [i, route] of routes.entries()) {
   const ratios = times[i]!.map((t, round) => t / times[0]![round]!);
   console.log(

@@ -37,22 +37,23 @@ function documentHeaders(options: HelmetOptions): HeaderSet {
 const STRICT_TRANSPORT_SECURITY = 'max-age=31536000; includeSubDomains';
 
 /**
- * The set for API answers (JSON, problem+json, CSV exports): the "Security headers" table of the
- * OWASP REST Security Cheat Sheet (from memory: Cache-Control no-store, a frame-ancestors 'none'
- * policy, HSTS, nosniff, X-Frame-Options DENY; Content-Type is set by each answer). The policy also
- * says `default-src 'none'`, so an answer that a browser did render could load nothing.
+ * The set for API answers (JSON, problem+json, CSV exports) and the health checks: the "Security
+ * headers" table of the OWASP REST Security Cheat Sheet (from memory: Cache-Control no-store, a
+ * frame-ancestors 'none' policy, HSTS, nosniff, X-Frame-Options DENY; Content-Type is set by each
+ * answer), plus two of our own: `default-src 'none'` in the policy, so an answer that a browser did
+ * render could load nothing, and a same-origin resource policy, so no other site, not even a sibling
+ * subdomain that the SameSite=Lax session cookie would reach, can embed a cookie-authenticated answer.
  *
- * Why not helmet's set: its other headers (opener and resource policies, origin-agent cluster,
- * referrer policy, DNS prefetch, download options, XSS filter, plug-in cross-domain policies) govern
- * pages, and API answers are never pages: nosniff and the JSON media type keep browsers from
- * rendering them, and the console's cookie is SameSite=Lax, so other sites cannot read
- * cookie-authenticated answers by embedding them. Each header line costs every answer its bytes and
- * about a microsecond of server time (measured, see DEVELOPERS.md "Speed").
+ * Why not helmet's set: its other headers (opener policy, origin-agent cluster, referrer policy, DNS
+ * prefetch, download options, XSS filter, plug-in cross-domain policies) govern pages, and these
+ * answers are never pages. Each header line costs every answer its bytes and about half a microsecond
+ * of server time (measured, see DEVELOPERS.md "Speed").
  */
 function apiHeaders(strictTransportSecurity: boolean): HeaderSet {
   const set = new Map<string, string>([
     ['Cache-Control', 'no-store'],
     ['Content-Security-Policy', "default-src 'none'; frame-ancestors 'none'"],
+    ['Cross-Origin-Resource-Policy', 'same-origin'],
     ['X-Content-Type-Options', 'nosniff'],
     ['X-Frame-Options', 'DENY'],
   ]);
@@ -60,14 +61,16 @@ function apiHeaders(strictTransportSecurity: boolean): HeaderSet {
   return { set, removed: [] };
 }
 
-/** `/api` and everything below it; the docs and the console are documents. */
-function isApiUrl(url: string): boolean {
-  return url.startsWith('/api/') || url === '/api' || url.startsWith('/api?');
-}
+/**
+ * `/api` and below, and the health checks, matched the way Express routes them (case-insensitive, on
+ * the path without query or absolute-form origin); the docs and the console are pages.
+ */
+const API_PATH = /^\/(?:api(?:\/|$)|healthz\/?$|readyz\/?$)/i;
 
 /**
- * Security headers on every response: the API set on `/api`, helmet's document set (with the given
- * content security policy) on the docs and the console. HSTS is sent on both when `strictTransportSecurity` is set.
+ * Security headers on every response: the API set on `/api` and the health checks, helmet's document
+ * set (with the given content security policy) on the docs and the console; HSTS on both when
+ * `strictTransportSecurity` is set.
  */
 export function securityHeaders(options: { strictTransportSecurity: boolean; contentSecurityPolicy: ContentSecurityPolicyOptions }): RequestHandler {
   const api = apiHeaders(options.strictTransportSecurity);
@@ -76,7 +79,7 @@ export function securityHeaders(options: { strictTransportSecurity: boolean; con
     strictTransportSecurity: options.strictTransportSecurity ? { maxAge: 31536000, includeSubDomains: true } : false,
   });
   return (req, res, next) => {
-    const headers = isApiUrl(req.url) ? api : document;
+    const headers = API_PATH.test(req.path) ? api : document;
     res.setHeaders(headers.set);
     for (const name of headers.removed) res.removeHeader(name);
     next();

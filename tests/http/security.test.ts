@@ -156,12 +156,15 @@ describe('keys and passwords never reach the logs', () => {
 
 describe('security headers on every surface', () => {
   // API answers get the OWASP REST Security Cheat Sheet's set (from memory: no-store, frame-ancestors
-  // 'none', nosniff, X-Frame-Options DENY, HSTS); pages get helmet's document set.
+  // 'none', nosniff, X-Frame-Options DENY, HSTS) plus default-src 'none' and a same-origin resource
+  // policy; pages get helmet's document set.
   const api = [
     { what: 'an API answer', path: '/api/v1/cables', auth: true },
     { what: 'an API problem', path: '/api/v1/mismatch', auth: false },
     { what: 'the OpenAPI document', path: '/api/v1/openapi.json', auth: false },
     { what: 'an unknown API path', path: '/api/v2/nothing', auth: false },
+    { what: 'an API path in capitals (Express routes it)', path: '/API/v1/openapi.json', auth: false },
+    { what: 'the health check', path: '/healthz', auth: false },
   ];
   const pages = [
     { what: 'the API reference', path: '/docs/' },
@@ -177,6 +180,7 @@ describe('security headers on every surface', () => {
     expect(res.headers['content-security-policy']).toBe("default-src 'none'; frame-ancestors 'none'");
     expect(res.headers['x-content-type-options']).toBe('nosniff');
     expect(res.headers['x-frame-options']).toBe('DENY');
+    expect(res.headers['cross-origin-resource-policy']).toBe('same-origin');
     expect(res.headers['x-powered-by']).toBeUndefined();
     // Document-only headers stay off JSON answers.
     expect(res.headers['cross-origin-opener-policy']).toBeUndefined();
