@@ -34,7 +34,8 @@ function documentHeaders(options: HelmetOptions): HeaderSet {
 }
 
 /** HSTS as helmet sends it (one year, subdomains): the same value on both surfaces. */
-const STRICT_TRANSPORT_SECURITY = 'max-age=31536000; includeSubDomains';
+const HSTS_MAX_AGE_S = 365 * 24 * 60 * 60;
+const STRICT_TRANSPORT_SECURITY = `max-age=${HSTS_MAX_AGE_S}; includeSubDomains`;
 
 /**
  * The set for API answers (JSON, problem+json, CSV exports) and the health checks: the "Security
@@ -76,7 +77,7 @@ export function securityHeaders(options: { strictTransportSecurity: boolean; con
   const api = apiHeaders(options.strictTransportSecurity);
   const document = documentHeaders({
     contentSecurityPolicy: options.contentSecurityPolicy,
-    strictTransportSecurity: options.strictTransportSecurity ? { maxAge: 31536000, includeSubDomains: true } : false,
+    strictTransportSecurity: options.strictTransportSecurity ? { maxAge: HSTS_MAX_AGE_S, includeSubDomains: true } : false,
   });
   return (req, res, next) => {
     const headers = API_PATH.test(req.path) ? api : document;
