@@ -8,40 +8,22 @@
 import { writeFileSync } from 'node:fs';
 import { Session } from 'node:inspector/promises';
 import { Duplex } from 'node:stream';
-import express from 'express';
 import { pino } from 'pino';
 import { createApp } from '../server/app.ts';
 import { createAppServer } from '../server/http/app-server.ts';
 import { loadConfig } from '../server/config.ts';
 import { openDatabase } from '../server/db/client.ts';
-import { createKey } from '../server/api/v1/keys/keys.service.ts';
-import { CLI_ACTOR } from '../server/api/v1/audit/audit.repository.ts';
-import { migrateDatabase } from '../server/db/migrate.ts';
-import { seedDemo } from '../server/db/seed.ts';
+import { median, mountSameServerBareRoute, mountStrictBareRoute, prepareBenchKey } from './common.ts';
 
 const ROUNDS = Number(process.env.PIPELINE_ROUNDS ?? 20);
 const REQUESTS = Number(process.env.PIPELINE_REQUESTS ?? 4000);
 const SOCKETS = 4;
 
 const config = loadConfig({ ...process.env, LOG_LEVEL: 'silent', PORT: '0' });
+const key = await prepareBenchKey(config.databaseUrl);
 const database = openDatabase(config.databaseUrl, { max: 4 });
-await migrateDatabase(database.pool);
-const seeded = await seedDemo(database.db, { email: 'bench@kestrel-ridge.example', password: 'bench-password-1' });
-const key = (
-  await createKey(
-    database.db,
-    { organisationId: seeded.organisationId, ownerId: seeded.adminId, name: 'bench', note: '', dailyQuota: 2_000_000_000, burstPerMinute: 2_000_000_000, actor: CLI_ACTOR },
-    new Date(),
-  )
-).secret;
 // The same reference routes as bench/server.ts.
-const app = createApp({
-  database,
-  config,
-  logger: pino({ level: 'silent' }),
-  first: (outer) => outer.post('/bench/bare-first', express.json(), (_req, res) => void res.json({ ok: true })),
-  beforeApi: (inner) => inner.post('/api/bench/bare', (_req, res) => void res.json({ ok: true })),
-});
+const app = createApp({ database, config, logger: pino({ level: 'silent' }), first: mountStrictBareRoute, beforeApi: mountSameServerBareRoute });
 const server = createAppServer(app);
 
 const body = JSON.stringify({ forwardPowerW: 100, reflectedPowerW: 4 });
@@ -137,11 +119,6 @@ if (process.env.PIPELINE_PROFILE) {
   const { profile } = await profiler.post('Profiler.stop');
   writeFileSync(process.env.PIPELINE_PROFILE, JSON.stringify(profile));
 }
-const median = (xs: number[]) => {
-  const sorted = [...xs].sort((a, b) => a - b);
-  const mid = Math.floor(sorted.length / 2);
-  return sorted.length % 2 === 1 ? sorted[mid]! : (sorted[mid - 1]! + sorted[mid]!) / 2;
-};
 for (const [i, route] of routes.entries()) {
   const ratios = times[i]!.map((t, round) => t / times[0]![round]!);
   console.log(

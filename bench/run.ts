@@ -12,13 +12,9 @@ import v8 from 'node:v8';
 import { runInNewContext } from 'node:vm';
 import autocannon from 'autocannon';
 import { create as createMath, all } from 'mathjs';
-import { createKey } from '../server/api/v1/keys/keys.service.ts';
-import { CLI_ACTOR } from '../server/api/v1/audit/audit.repository.ts';
-import { openDatabase } from '../server/db/client.ts';
-import { migrateDatabase } from '../server/db/migrate.ts';
-import { seedDemo } from '../server/db/seed.ts';
 import { lineFromLossSpec, lineInputImpedance } from '../shared/rf/line.ts';
 import { analyseSweep, parseTouchstone } from '../shared/sweep/index.ts';
+import { median, prepareBenchKey } from './common.ts';
 import { pacedLoad } from './paced.ts';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
@@ -33,30 +29,6 @@ interface Target {
   goal: string;
   ratio: number | null;
   met: boolean | null;
-}
-
-/** The middle value; for an even count the mean of the two middle ones (P1 runs pairs in even numbers). */
-function median(xs: number[]): number {
-  if (xs.length === 0) return NaN;
-  const sorted = [...xs].sort((a, b) => a - b);
-  const mid = Math.floor(sorted.length / 2);
-  return sorted.length % 2 === 1 ? sorted[mid]! : (sorted[mid - 1]! + sorted[mid]!) / 2;
-}
-
-async function prepare(url: string): Promise<string> {
-  const database = openDatabase(url, { max: 2 });
-  try {
-    await migrateDatabase(database.pool);
-    const seeded = await seedDemo(database.db, { email: 'bench@kestrel-ridge.example', password: 'bench-password-1' });
-    const created = await createKey(
-      database.db,
-      { organisationId: seeded.organisationId, ownerId: seeded.adminId, name: 'bench', note: '', dailyQuota: 2_000_000_000, burstPerMinute: 2_000_000_000, actor: CLI_ACTOR },
-      new Date(),
-    );
-    return created.secret;
-  } finally {
-    await database.close();
-  }
 }
 
 async function startServer(): Promise<{ child: ChildProcess; base: string }> {
@@ -383,7 +355,7 @@ if (!url) throw new Error('Run the benchmark with `npm run bench` (it provides D
 const loadBefore = os.loadavg()[0]!;
 // BENCH_ONLY=P2,P3 runs just those targets (while working on one); results.json then holds only them.
 const only = new Set((process.env.BENCH_ONLY ?? 'P1,P2,P3,P4,P5').split(',').map((id) => id.trim().toUpperCase()));
-const key = await prepare(url);
+const key = await prepareBenchKey(url);
 const targets: Target[] = [];
 if (only.has('P3')) targets.push(p3());
 if (only.has('P4')) targets.push(p4());

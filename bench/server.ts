@@ -7,6 +7,7 @@ import { createApp } from '../server/app.ts';
 import { createAppServer } from '../server/http/app-server.ts';
 import { loadConfig } from '../server/config.ts';
 import { openDatabase } from '../server/db/client.ts';
+import { mountSameServerBareRoute, mountStrictBareRoute } from './common.ts';
 
 const config = loadConfig({ ...process.env, LOG_LEVEL: 'silent', PORT: '0' });
 const database = openDatabase(config.databaseUrl, { max: 20 });
@@ -17,11 +18,7 @@ const app = createApp({
   config,
   logger: pino({ level: 'silent' }),
   first: (outer) => {
-    // P1's strict ceiling: a bare JSON route ahead of everything, even the server-wide middleware
-    // every route of this server passes (reported beside the ratio, not judged).
-    outer.post('/bench/bare-first', express.json(), (_req, res) => {
-      res.json({ ok: true });
-    });
+    mountStrictBareRoute(outer);
     // P2's ceiling: parse the batch payload and echo it back.
     outer.post('/bench/echo', express.json({ limit: '64mb' }), (req, res) => {
       res.json(req.body);
@@ -46,14 +43,7 @@ const app = createApp({
       res.json({ rssBytes: process.memoryUsage().rss, maxRssBytes: process.resourceUsage().maxRSS * 1024 });
     });
   },
-  // P1's reference: a bare JSON route in the same server, where any of its routes sits. It gets what
-  // every route gets (request id, security headers, body limit, parsed JSON body; under /api, the API's
-  // header set) and none of a calculation's own work: no key check, quota, validation or calculation.
-  beforeApi: (app) => {
-    app.post('/api/bench/bare', (_req, res) => {
-      res.json({ ok: true });
-    });
-  },
+  beforeApi: mountSameServerBareRoute,
 });
 
 const server = createAppServer(app);
