@@ -1,5 +1,6 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { flushPromises, mount } from '@vue/test-utils';
+import LineForm from './LineForm.vue';
 import MatchForm from './MatchForm.vue';
 import MismatchForm from './MismatchForm.vue';
 import type { FormState } from './request.ts';
@@ -60,6 +61,30 @@ describe('the L-network form of the Try page', () => {
       path: '/api/v1/match',
       body: { frequencyHz: 7_100_000, loadOhm: { re: 12, im: -30 }, sourceOhm: 50 },
     });
+    wrapper.unmount();
+  });
+});
+
+describe('the line form of the Try page', () => {
+  it('describes the line by its primary constants, typed in µH, µS and pF per metre and sent in SI units', async () => {
+    const wrapper = mount(LineForm, { props: { cables: [] }, attachTo: document.body });
+    await wrapper.get('input[type="radio"][value="rlgc"]').setValue(true);
+    await flushPromises();
+    expect(wrapper.get('label[for="ln-l"]').text()).toContain('µH/m');
+    expect(lastState(wrapper).request).toEqual({
+      endpoint: 'line',
+      method: 'POST',
+      path: '/api/v1/line',
+      body: {
+        frequencyHz: 14_200_000,
+        line: { lengthM: 30, rlgc: { rOhmPerM: 0.05, lHPerM: 2.5e-7, gSPerM: 0, cFPerM: 1e-10 } },
+        loadOhm: { re: 72, im: 18 },
+        powerW: 100,
+      },
+    });
+    await type(wrapper, '#ln-c', '0');
+    expect(lastState(wrapper).request).toBeNull();
+    expect(lastState(wrapper).issues.join(' ')).toMatch(/cFPerM/);
     wrapper.unmount();
   });
 });

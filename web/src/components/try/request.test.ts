@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { curlCommand, mhzToHz, requestUrl, type TryRequest } from './request.ts';
+import { curlCommand, mhzToHz, requestUrl, scaled, type TryRequest } from './request.ts';
 
 const mismatch: TryRequest = { endpoint: 'mismatch', method: 'POST', path: '/api/v1/mismatch', body: { forwardPowerW: 100, reflectedPowerW: 4 } };
 
@@ -7,6 +7,14 @@ describe('the request written out for people', () => {
   it('turns MHz into whole hertz without binary noise', () => {
     expect(mhzToHz(14.2)).toBe(14_200_000);
     expect(mhzToHz(7.1)).toBe(7_100_000);
+  });
+
+  it('turns µH, µS and pF per metre into SI units without binary noise', () => {
+    expect(0.21 * 1e-6).toBe(2.0999999999999997e-7); // the noise it removes
+    expect(scaled(0.21, 1e-6)).toBe(2.1e-7);
+    expect(scaled(0.25, 1e-6)).toBe(2.5e-7);
+    expect(scaled(100, 1e-12)).toBe(1e-10);
+    expect(scaled(0, 1e-6)).toBe(0);
   });
 
   it('writes a POST as curl with the body as sent', () => {

@@ -17,7 +17,12 @@ export interface FormState {
 
 /** MHz as typed by people to Hz without binary noise (14.2 MHz → 14200000, not 14199999.999999998). */
 export function mhzToHz(mhz: number): number {
-  return Number((mhz * 1e6).toPrecision(12));
+  return scaled(mhz, 1e6);
+}
+
+/** A value typed in a prefixed unit to the base unit without binary noise (0.25 µH → 2.5e-7 H, not 2.4999999999999999e-7). */
+export function scaled(value: number, factor: number): number {
+  return Number((value * factor).toPrecision(12));
 }
 
 /** `'` inside single quotes, the POSIX shell way. */
