@@ -20,6 +20,8 @@ export const EnvSchema = z.object({
   MAIL_FROM: z.string().min(3).default('Gammaline <no-reply@gammaline.example>'),
   /** Express "trust proxy" setting: hops of reverse proxies in front of the app (0 = none). Needed for Secure cookies and per-address throttling behind a proxy. */
   TRUST_PROXY: z.coerce.number().int().min(0).max(10).default(0),
+  /** Longest one SQL statement may run before PostgreSQL cancels it (the request then answers 503); 0 = no limit. Migrations never have one. */
+  DATABASE_STATEMENT_TIMEOUT_MS: z.coerce.number().int().min(0).max(3_600_000).default(15_000),
 });
 
 /** Used only in local mode; production refuses to start without its own SESSION_SECRET. */
@@ -46,6 +48,8 @@ export interface AppConfig {
   mailFrom: string;
   /** Reverse-proxy hops to trust for client addresses and the request scheme. */
   trustProxy: number;
+  /** PostgreSQL's statement_timeout for the serving pool (ms); 0 = none. */
+  statementTimeoutMs: number;
 }
 
 export const APP_VERSION = '0.1.0';
@@ -78,6 +82,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): AppConfig {
     smtpUrl: e.SMTP_URL,
     mailFrom: e.MAIL_FROM,
     trustProxy: e.TRUST_PROXY,
+    statementTimeoutMs: e.DATABASE_STATEMENT_TIMEOUT_MS,
   };
 }
 
@@ -97,6 +102,7 @@ export function testConfig(overrides: Partial<AppConfig> = {}): AppConfig {
     sessionSecret: LOCAL_SESSION_SECRET,
     mailFrom: 'Gammaline <no-reply@gammaline.example>',
     trustProxy: 0,
+    statementTimeoutMs: 15_000,
     ...overrides,
   };
 }

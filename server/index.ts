@@ -83,7 +83,7 @@ function onStopSignal(stop: (signal: string) => Promise<void>): void {
 
 /** One HTTP server process: a worker, or the only process when WORKERS=1. */
 async function runServer(config: AppConfig, logger: Logger, options: { prepare: boolean }): Promise<void> {
-  const database = openDatabase(config.databaseUrl);
+  const database = openDatabase(config.databaseUrl, { statementTimeoutMs: config.statementTimeoutMs });
   let capture: MailCapture | undefined;
   let pruneTimer: NodeJS.Timeout | undefined;
   if (!config.smtpUrl && !process.env[CAPTURE_URL_ENV]) {

@@ -10,14 +10,31 @@ export interface Database {
   close(): Promise<void>;
 }
 
+export interface DatabaseOptions {
+  max?: number;
+  /**
+   * PostgreSQL cancels a statement running longer (ms; 0 or unset = no limit), so a lock held
+   * elsewhere or a runaway query answers 503 instead of holding the request and a pool connection.
+   */
+  statementTimeoutMs?: number;
+}
+
+/**
+ * A transaction left open while the code awaits something else holds its locks; after this long
+ * PostgreSQL ends the session instead (no request of ours legitimately idles that long inside one).
+ */
+const IDLE_IN_TRANSACTION_TIMEOUT_MS = 60_000;
+
 /** Opens a pool for one process; callers own its lifetime (tests build their own). */
-export function openDatabase(url: string, options: { max?: number } = {}): Database {
+export function openDatabase(url: string, options: DatabaseOptions = {}): Database {
   const pool = new pg.Pool({
     connectionString: url,
     max: options.max ?? 10,
     // Fail fast when the database is down so requests get a 503 problem instead of hanging.
     connectionTimeoutMillis: 3_000,
     idleTimeoutMillis: 30_000,
+    ...(options.statementTimeoutMs ? { statement_timeout: options.statementTimeoutMs } : {}),
+    idle_in_transaction_session_timeout: IDLE_IN_TRANSACTION_TIMEOUT_MS,
   });
   // An idle client losing its connection (database restart) must not crash the process.
   pool.on('error', () => {});

@@ -14,11 +14,18 @@ export async function migrateDatabase(pool: pg.Pool): Promise<void> {
   // The lock and the migrator must share one connection, so take a dedicated client from the pool.
   const client = await pool.connect();
   try {
-    await client.query('select pg_advisory_lock($1)', [MIGRATION_LOCK_KEY]);
+    // Waiting for another process's migration and rewriting a big table may both take longer than
+    // the serving pool's statement timeout; this connection goes back to the pool with it restored.
+    await client.query('set statement_timeout = 0');
     try {
-      await migrate(drizzle({ client }), { migrationsFolder: MIGRATIONS_FOLDER });
+      await client.query('select pg_advisory_lock($1)', [MIGRATION_LOCK_KEY]);
+      try {
+        await migrate(drizzle({ client }), { migrationsFolder: MIGRATIONS_FOLDER });
+      } finally {
+        await client.query('select pg_advisory_unlock($1)', [MIGRATION_LOCK_KEY]);
+      }
     } finally {
-      await client.query('select pg_advisory_unlock($1)', [MIGRATION_LOCK_KEY]);
+      await client.query('reset statement_timeout');
     }
   } finally {
     client.release();

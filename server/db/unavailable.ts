@@ -11,3 +11,12 @@ export function isDatabaseUnavailable(err: unknown): boolean {
   }
   return false;
 }
+
+/** True when PostgreSQL cancelled a statement (statement_timeout, or an operator's pg_cancel_backend). */
+export function isStatementCancelled(err: unknown): boolean {
+  for (let e: unknown = err, depth = 0; e && depth < 5; depth++) {
+    if ((e as { code?: unknown }).code === '57014') return true;
+    e = (e as { cause?: unknown }).cause;
+  }
+  return false;
+}

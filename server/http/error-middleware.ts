@@ -1,7 +1,7 @@
 import type { ErrorRequestHandler, RequestHandler } from 'express';
 import { ZodError } from 'zod';
 import { RfInputError } from '../../shared/rf/errors.ts';
-import { isDatabaseUnavailable } from '../db/unavailable.ts';
+import { isDatabaseUnavailable, isStatementCancelled } from '../db/unavailable.ts';
 import { ApiError, PROBLEM_CONTENT_TYPE } from './problem.ts';
 import { apiErrorFromZod } from './zod-issues.ts';
 
@@ -39,6 +39,9 @@ export const problemErrorHandler: ErrorRequestHandler = (err, req, res, _next) =
   } else if (isDatabaseUnavailable(err)) {
     req.log?.warn({ err }, 'database unavailable');
     apiError = new ApiError('unavailable', 'The database is unreachable; retry shortly.', { headers: { 'Retry-After': String(DATABASE_RETRY_AFTER_S) } });
+  } else if (isStatementCancelled(err)) {
+    req.log?.warn({ err }, 'database statement timed out');
+    apiError = new ApiError('unavailable', 'The database took too long to answer; retry shortly.', { headers: { 'Retry-After': String(DATABASE_RETRY_AFTER_S) } });
   } else {
     apiError = fromParserError(err as HttpParserError) ?? new ApiError('internal', 'Something went wrong on our side; the request id in X-Request-Id helps us find it.');
   }

@@ -3,7 +3,7 @@ import type { RequestHandler, Response } from 'express';
 import type { AppContext } from '../../../context.ts';
 import { callerOf } from '../../../auth/caller.ts';
 import { ApiError, type Problem } from '../../../http/problem.ts';
-import { isDatabaseUnavailable } from '../../../db/unavailable.ts';
+import { isDatabaseUnavailable, isStatementCancelled } from '../../../db/unavailable.ts';
 import { cableIdsIn, calculationEnvFor } from '../cables/cables.env.ts';
 import { chargeUnits, quotaSpentProblem, remainingUnits } from './batch.quota.ts';
 import { runItem } from './batch.service.ts';
@@ -229,8 +229,8 @@ export function streamResults(ctx: AppContext): RequestHandler {
       if (writer.gone) return;
       const client = (err as { code?: string }).code === 'ECONNRESET' || (err as { code?: string }).code === 'ERR_STREAM_PREMATURE_CLOSE';
       if (client) return;
-      const problem = isDatabaseUnavailable(err)
-        ? new ApiError('unavailable', 'The database became unreachable, so no more items could be charged; send the remaining lines again shortly.').toProblem()
+      const problem = isDatabaseUnavailable(err) || isStatementCancelled(err)
+        ? new ApiError('unavailable', 'The database became unreachable or too slow, so no more items could be charged; send the remaining lines again shortly.').toProblem()
         : new ApiError('internal', 'The stream stopped because of a fault on our side; send the remaining lines again. The request id in X-Request-Id helps us find it.').toProblem();
       if (problem.status === 500) req.log?.error({ err }, 'NDJSON batch failed');
       await finish({ problem });
