@@ -16,6 +16,9 @@ export interface PacedResult {
   dueAt: number[];
 }
 
+/** Answers still missing this long after the last request fell due are counted failed (a hung server must not hang the bench). */
+const ANSWER_DEADLINE_MS = 10_000;
+
 interface Connection {
   socket: net.Socket;
   busyDue: number | undefined;
@@ -35,9 +38,9 @@ export async function pacedLoad(
   url: string,
   body: string,
   headers: Record<string, string>,
-  options: { rate: number; seconds: number; connections: number; leadInSeconds: number },
+  options: { rate: number; seconds: number; connections: number; leadInSeconds: number; answerDeadlineMs?: number },
 ): Promise<PacedResult> {
-  const { rate, seconds, connections, leadInSeconds } = options;
+  const { rate, seconds, connections, leadInSeconds, answerDeadlineMs = ANSWER_DEADLINE_MS } = options;
   const target = new URL(url);
   const extra = Object.entries({ 'content-type': 'application/json', ...headers })
     .map(([k, v]) => `${k}: ${v}\r\n`)
@@ -51,6 +54,7 @@ export async function pacedLoad(
   let started = 0;
   let finished = 0;
   let live = connections;
+  let gaveUp = false;
   let allDone!: () => void;
   const done = new Promise<void>((resolve) => (allDone = resolve));
 
@@ -119,7 +123,7 @@ export async function pacedLoad(
           made.push(c);
           socket.on('close', () => {
             live--;
-            if (c.busyDue !== undefined) complete(c, `${url}: the connection closed during a request`);
+            if (c.busyDue !== undefined) complete(c, gaveUp ? `${url}: no answer ${answerDeadlineMs / 1000} s after the last request was due` : `${url}: the connection closed during a request`);
             const idle = free.indexOf(c);
             if (idle !== -1) free.splice(idle, 1);
             // With no connection left, whatever has not been answered never will be: count it failed.
@@ -129,7 +133,7 @@ export async function pacedLoad(
                 result.latencies.push(Number.POSITIVE_INFINITY);
                 result.dueAt.push(0);
               }
-              result.failures.push(`${url}: every connection closed; ${lost} requests unanswered`);
+              result.failures.push(gaveUp ? `${url}: ${lost} requests unanswered ${answerDeadlineMs / 1000} s after the last one was due` : `${url}: every connection closed; ${lost} requests unanswered`);
               finished = total;
               allDone();
             }
@@ -163,7 +167,12 @@ export async function pacedLoad(
       if (c) send(c);
     }
   }
+  const deadline = setTimeout(() => {
+    gaveUp = true;
+    for (const c of all) c.socket.destroy();
+  }, answerDeadlineMs);
   await done;
+  clearTimeout(deadline);
   for (const c of all) c.socket.destroy();
   // The loop above stops on its own once every request was due, even if all connections broke early.
   return result;
