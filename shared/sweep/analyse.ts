@@ -83,6 +83,9 @@ function requireFiniteField(value: unknown, field: string, what: string): number
   return value;
 }
 
+/** Loads above this many ohms are scaled before Γ is computed (see analyseSweep). */
+const HUGE_OHM = 1e150;
+
 /**
  * Analyses a one-port sweep against a real reference R: per point Γ = (Z − R)/(Z + R),
  * SWR = (1 + |Γ|)/(1 − |Γ|) and return loss −20·log10|Γ|; the minimum SWR; the bands where SWR is
@@ -139,14 +142,23 @@ export function analyseSweep(points: readonly SweepPointInput[], options: Analys
       m = 1;
       reactance[i] = NaN;
     } else {
-      const zr = z.re;
-      const zi = z.im;
+      let zr = z.re;
+      let zi = z.im;
       if (typeof zr !== 'number' || typeof zi !== 'number' || !Number.isFinite(zr) || !Number.isFinite(zi)) {
         throw new RfInputError(`points.${i}.loadOhm`, 'loadOhm must be { re, im } with finite parts, or null for an open circuit.');
       }
+      // Γ does not change when Z and R are scaled together; a load near the largest double is scaled
+      // down first, or Z + R and the division below overflow to Infinity/Infinity = NaN.
+      let rs = r;
+      const size = Math.max(Math.abs(zr), Math.abs(zi));
+      if (size > HUGE_OHM) {
+        zr /= size;
+        zi /= size;
+        rs = r / size;
+      }
       // Γ = (Z − R)/(Z + R) by Smith's division, inlined to keep the loop allocation-free.
-      const nr = zr - r;
-      const dr = zr + r;
+      const nr = zr - rs;
+      const dr = zr + rs;
       if (dr === 0 && zi === 0) {
         throw new RfInputError(`points.${i}.loadOhm`, `The load equals −${r} ohm, for which no reflection coefficient exists; check the sign of the resistance.`);
       }
@@ -163,6 +175,10 @@ export function analyseSweep(points: readonly SweepPointInput[], options: Analys
       }
       // A pure reactance reflects totally; rounding must not turn that into a huge finite SWR.
       m = zr === 0 ? 1 : Math.sqrt(gr * gr + gi * gi);
+      if (!Number.isFinite(m)) {
+        // Not reachable with the scaling above; a stored NaN would break every later export of the sweep.
+        throw new RfInputError(`points.${i}.loadOhm`, 'The reflection coefficient of this load cannot be computed in double precision.');
+      }
       reactance[i] = zi;
     }
     const swr = m < 1 ? (1 + m) / (1 - m) : null;

@@ -107,6 +107,19 @@ describe('CSV and JSON uploads', () => {
     expect(res.body.sourceFormat).toBe('json');
   });
 
+  it('keeps a sweep with loads near the largest double exportable (no NaN stored)', async () => {
+    const made = await api()
+      .post('/api/v1/sweeps')
+      .set(ctx.auth)
+      .send({ name: 'huge loads', points: [{ frequencyHz: 7e6, loadOhm: { re: 1e308, im: 1e308 } }, { frequencyHz: 7.1e6, loadOhm: 50 }] })
+      .expect(201);
+    expect(made.body.points[0].reflection.magnitude).toBeCloseTo(1, 12);
+    const again = await api().get(`/api/v1/sweeps/${made.body.id}`).set(ctx.auth).expect(200);
+    expect(again.body.points[0].reflection.re).toBeCloseTo(1, 12);
+    const csv = await api().get(`/api/v1/sweeps/${made.body.id}/points.csv`).set(ctx.auth).expect(200);
+    expect(csv.text.split('\r\n')[1]).toMatch(/^7000000,1e\+308,1e\+308,/);
+  });
+
   it('gives a verdict against a mask: pass inside it, fail with the worst point outside it', async () => {
     const text = dipoleTouchstone({ unit: 'MHz', parameter: 'Z', format: 'RI', referenceOhm: 50, version: 2 });
     const pass = await upload(text, 'd.s1p', { mask: JSON.stringify({ maxSwr: 3, startHz: 7.05e6, stopHz: 7.2e6 }) }).expect(201);

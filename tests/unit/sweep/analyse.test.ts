@@ -58,6 +58,34 @@ describe('per-point figures', () => {
   });
 });
 
+describe('loads near the largest double', () => {
+  it('scales a huge load before dividing, matching complex.js where it does not overflow itself', () => {
+    // Independent re-computation with complex.js; at 1e150 its own products stay finite.
+    const z = new ComplexJs(2e150, 1e150);
+    const g = z.sub(50).div(z.add(50));
+    const { points } = analyseSweep([{ frequencyHz: 1e6, loadOhm: { re: 2e150, im: 1e150 } }], { referenceOhm: 50 });
+    expect(points[0]?.reflection.re).toBeCloseTo(g.re, 15);
+    expect(points[0]?.reflection.im).toBeCloseTo(g.im, 15);
+  });
+
+  it('gives Γ → 1 for a load of 1e308 + j1e308 ohm instead of NaN (Z ≫ R reflects like an open circuit, from the definition)', () => {
+    const { points, summary } = analyseSweep(
+      [
+        { frequencyHz: 1e6, loadOhm: { re: 1e308, im: 1e308 } },
+        { frequencyHz: 2e6, loadOhm: { re: -1e308, im: -1.7e308 } },
+      ],
+      { referenceOhm: 50 },
+    );
+    for (const p of points) {
+      expect(p.reflection.re).toBeCloseTo(1, 12);
+      expect(p.reflection.im).toBeCloseTo(0, 12);
+      expect(Number.isFinite(p.reflection.magnitude)).toBe(true);
+      expect(Number.isFinite(p.reflection.angleDeg)).toBe(true);
+    }
+    expect(summary.pointCount).toBe(2);
+  });
+});
+
 describe('unbounded SWR is null', () => {
   it('treats an open circuit (loadOhm null) as Γ = 1 with SWR null and return loss 0 dB', () => {
     const { points, summary } = analyseSweep([{ frequencyHz: 1e6, loadOhm: null }], { referenceOhm: 50 });
