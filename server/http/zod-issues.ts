@@ -1,4 +1,4 @@
-import type { z } from 'zod';
+import { z } from 'zod';
 import { ApiError, type FieldIssue } from './problem.ts';
 
 /**
@@ -14,8 +14,25 @@ export function fieldIssues(error: z.ZodError, prefix: (string | number)[] = [])
   }));
 }
 
+/**
+ * zod reports a value that fits no branch of a union as one "Invalid input"; when only one branch
+ * has the right shape (an object for `{ re, im }` rather than a number, an array for line sections),
+ * its own issues say more (`loadOhm.im: expected number`).
+ */
+export function expandUnions(error: z.ZodError): z.ZodError {
+  if (!error.issues.some((i) => i.code === 'invalid_union')) return error;
+  const issues = error.issues.flatMap((issue) => {
+    if (issue.code !== 'invalid_union' || !('errors' in issue) || !Array.isArray(issue.errors)) return [issue];
+    const branches = (issue.errors as z.core.$ZodIssue[][]).filter((b) => !b.some((i) => i.code === 'invalid_type' && i.path.length === 0));
+    if (branches.length !== 1) return [issue];
+    return branches[0]!.map((i) => ({ ...i, path: [...issue.path, ...i.path] }));
+  });
+  return new z.ZodError(issues);
+}
+
 /** Converts a zod failure into the ApiError the error middleware answers with. */
-export function apiErrorFromZod(error: z.ZodError, where: 'body' | 'query' | 'params' = 'body'): ApiError {
+export function apiErrorFromZod(zodError: z.ZodError, where: 'body' | 'query' | 'params' = 'body'): ApiError {
+  const error = expandUnions(zodError);
   const malformed = error.issues.some((i) => MALFORMED_CODES.has(i.code));
   const errors = fieldIssues(error);
   const detail = errors.map((e) => (e.field ? `${e.field}: ${e.message}` : e.message)).join('; ');

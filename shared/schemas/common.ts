@@ -10,7 +10,7 @@ export const ComplexSchema = z
 
 /** An impedance in ohms: a plain number when purely resistive, else `{ re, im }`. */
 export const ImpedanceSchema = z
-  .union([z.number(), ComplexSchema])
+  .union([z.number(), ComplexSchema], { error: 'give the impedance in ohms as a number (resistive) or as { "re": R, "im": X }' })
   .meta({ id: 'Impedance', description: 'Impedance in ohms: a plain number when purely resistive, or `{ re, im }` (R + jX).', example: { re: 72, im: 18 } });
 
 export type ComplexInput = z.infer<typeof ComplexSchema>;

@@ -70,6 +70,15 @@ describe('POST /api/v1/mismatch', () => {
 });
 
 describe('POST /api/v1/reflection', () => {
+  it('says what is wrong with an impedance in either of its forms, not just "Invalid input"', async () => {
+    const half = await post('/reflection', { loadOhm: { re: 50 } }).expect(400);
+    expect(half.body.errors).toEqual([{ field: 'loadOhm.im', message: expect.stringMatching(/expected number/) }]);
+    const text = await post('/reflection', { loadOhm: '50+j10' }).expect(400);
+    expect(text.body.errors).toEqual([{ field: 'loadOhm', message: 'give the impedance in ohms as a number (resistive) or as { "re": R, "im": X }' }]);
+    const item = await post('/batch', { items: [{ op: 'reflection', input: { loadOhm: { re: 50 } } }] }).expect(200);
+    expect(item.body.results[0].problem.errors).toEqual([{ field: 'items.0.input.loadOhm.im', message: expect.stringMatching(/expected number/) }]);
+  });
+
   it('computes Γ for a complex load on 50 Ω and inverts it back', async () => {
     // Γ = (100 + j50 − 50)/(100 + j50 + 50) = (50 + j50)/(150 + j50) = 0.4 + j0.2 (hand calculation).
     const res = await post('/reflection', { loadOhm: { re: 100, im: 50 } }).expect(200);

@@ -27,23 +27,9 @@ import { MAX_SWEEP_FILE_BYTES, SweepFormFieldsSchema, sweepUpload } from './swee
 
 const tags = ['Sweeps'];
 
-/**
- * zod reports a value that fits no branch of a union as one "Invalid input"; when only one branch
- * has the right shape (an object for one LineSpec, an array for sections), its own issues say more.
- */
-function expandUnions(error: z.ZodError): z.ZodError {
-  const issues = error.issues.flatMap((issue) => {
-    if (issue.code !== 'invalid_union' || !('errors' in issue) || !Array.isArray(issue.errors)) return [issue];
-    const branches = (issue.errors as z.core.$ZodIssue[][]).filter((b) => !b.some((i) => i.code === 'invalid_type' && i.path.length === 0));
-    if (branches.length !== 1) return [issue];
-    return branches[0]!.map((i) => ({ ...i, path: [...issue.path, ...i.path] }));
-  });
-  return new z.ZodError(issues);
-}
-
 function parseOrThrow<S extends z.ZodType>(schema: S, value: unknown): z.infer<S> {
   const parsed = schema.safeParse(value);
-  if (!parsed.success) throw apiErrorFromZod(expandUnions(parsed.error));
+  if (!parsed.success) throw apiErrorFromZod(parsed.error);
   return parsed.data;
 }
 
