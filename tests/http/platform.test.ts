@@ -76,6 +76,26 @@ describe('the platform', () => {
       expect(readFileSync(OPENAPI_FILE, 'utf8')).toBe(serializeOpenApi());
     });
 
+    it('lists every answer the code gives to a wrong body: 415 for text, 400 for the wrong shape, 422 for values out of range', async () => {
+      const doc = (await request(ctx.app).get('/api/v1/openapi.json').expect(200)).body as {
+        paths: Record<string, Record<string, { requestBody?: { content: Record<string, unknown> }; responses: Record<string, unknown> }>>;
+      };
+      const admin = await ctx.adminAgent();
+      const undocumented: string[] = [];
+      for (const [path, item] of Object.entries(doc.paths)) {
+        for (const [method, op] of Object.entries(item)) {
+          if (!op.requestBody?.content['application/json']) continue;
+          const url = path.replace(/\{[^}]+\}/g, '00000000-0000-4000-8000-000000000000');
+          const send = (body: string, type: string) => (admin as unknown as Record<string, (u: string) => request.Test>)[method]!(url).set('Content-Type', type).send(body);
+          for (const [body, type] of [['x=1', 'text/plain'], ['[1]', 'application/json'], ['{"frequencyHz":-1,"items":[],"name":"","email":"x"}', 'application/json']]) {
+            const res = await send(body!, type!);
+            if (!(String(res.status) in op.responses)) undocumented.push(`${method.toUpperCase()} ${path} ${type} ${body}: ${res.status}`);
+          }
+        }
+      }
+      expect(undocumented).toEqual([]);
+    });
+
     it('is rendered for people at /docs', async () => {
       const res = await request(ctx.app).get('/docs/').expect(200);
       expect(res.text).toContain('swagger-ui');

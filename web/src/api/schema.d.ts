@@ -160,6 +160,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
                 /** @description Well-formed input that cannot be computed (the field and the reason are named). */
                 422: {
                     headers: {
@@ -256,6 +265,15 @@ export interface paths {
                 };
                 /** @description The body exceeds the size limit. */
                 413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -366,6 +384,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
                 /** @description Well-formed input that cannot be computed (the field and the reason are named). */
                 422: {
                     headers: {
@@ -469,6 +496,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
                 /** @description Well-formed input that cannot be computed (the field and the reason are named). */
                 422: {
                     headers: {
@@ -565,6 +601,15 @@ export interface paths {
                 };
                 /** @description The body exceeds the size limit. */
                 413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -681,6 +726,15 @@ export interface paths {
                 };
                 /** @description The body is neither JSON nor NDJSON. */
                 415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -810,6 +864,33 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         delete?: never;
@@ -846,6 +927,15 @@ export interface paths {
                         "application/json": components["schemas"]["CableEntry"];
                     };
                 };
+                /** @description The request is malformed or fails validation (field list in `errors`). */
+                400: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
                 /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
                 401: {
                     headers: {
@@ -857,6 +947,15 @@ export interface paths {
                 };
                 /** @description Not found. */
                 404: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -935,6 +1034,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         options?: never;
@@ -996,6 +1104,33 @@ export interface paths {
                 };
                 /** @description Not found. */
                 404: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1212,6 +1347,24 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
                 /** @description Well-formed input that cannot be computed (the field and the reason are named). */
                 422: {
                     headers: {
@@ -1284,6 +1437,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         put?: never;
@@ -1339,6 +1501,15 @@ export interface paths {
                 };
                 /** @description Not found. */
                 404: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1407,6 +1578,24 @@ export interface paths {
                 };
                 /** @description Not found. */
                 404: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1506,6 +1695,15 @@ export interface paths {
                 };
                 /** @description The body exceeds the size limit. */
                 413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1620,6 +1818,15 @@ export interface paths {
                 };
                 /** @description The body exceeds the size limit. */
                 413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1759,6 +1966,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
                 /** @description Well-formed input that cannot be computed (the field and the reason are named). */
                 422: {
                     headers: {
@@ -1842,6 +2058,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         put?: never;
@@ -1894,6 +2119,15 @@ export interface paths {
                 };
                 /** @description Not found. */
                 404: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1959,6 +2193,15 @@ export interface paths {
                 };
                 /** @description Not found. */
                 404: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2070,6 +2313,33 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
                 /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
                 429: {
                     headers: {
@@ -2172,6 +2442,33 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
                 /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
                 429: {
                     headers: {
@@ -2226,6 +2523,24 @@ export interface paths {
                 };
                 /** @description The request is malformed or fails validation (field list in `errors`). */
                 400: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2309,6 +2624,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         put?: never;
@@ -2376,6 +2700,24 @@ export interface paths {
                 };
                 /** @description The change conflicts with the current state (the detail says which). */
                 409: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2464,6 +2806,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         put?: never;
@@ -2521,6 +2872,15 @@ export interface paths {
                 };
                 /** @description Not found. */
                 404: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2589,6 +2949,33 @@ export interface paths {
                 };
                 /** @description Not found. */
                 404: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2824,6 +3211,33 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         trace?: never;
@@ -2937,6 +3351,33 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
                 /** @description The database is unreachable; retry after `Retry-After` seconds. */
                 503: {
                     headers: {
@@ -3021,6 +3462,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         options?: never;
@@ -3074,6 +3524,24 @@ export interface paths {
                 };
                 /** @description The change conflicts with the current state (the detail says which). */
                 409: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3190,6 +3658,33 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The body exceeds the size limit. */
+                413: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The body is not JSON (send Content-Type: application/json). */
+                415: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         trace?: never;
@@ -3244,6 +3739,15 @@ export interface paths {
                 };
                 /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
                 403: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3330,6 +3834,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         put?: never;
@@ -3400,6 +3913,15 @@ export interface paths {
                 };
                 /** @description Not found. */
                 404: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+                422: {
                     headers: {
                         [name: string]: unknown;
                     };
