@@ -189,7 +189,7 @@ export const LineResultSchema = z
     lengthWavelengths: z.number(),
     matchedLossDb: z.number().meta({ description: 'Loss of the line when matched.' }),
     totalLossDb: z.number().nullable().meta({ description: 'Loss with this load: 10·log10(Pin/Pload); `null` when no power reaches the load.' }),
-    mismatchExtraLossDb: z.number().nullable().meta({ description: 'Extra loss caused by the mismatch: total − matched.' }),
+    mismatchExtraLossDb: z.number().nullable().meta({ description: 'Extra loss caused by the mismatch: total − matched; `null` when `totalLossDb` is.' }),
     atLoad: EndReportSchema,
     atInput: EndReportSchema,
     power: z.object({ inputW: z.number(), loadW: z.number(), lineDissipationW: z.number() }).optional(),
@@ -247,9 +247,12 @@ export const ReferResultSchema = z
   .object({
     source: EndFiguresSchema.meta({ description: 'At the transmitter end.' }),
     load: EndFiguresSchema.meta({ description: 'At the antenna end.' }),
-    matchedLossDb: z.number(),
-    totalLossDb: z.number().nullable(),
-    lineDissipationW: z.number().optional(),
+    matchedLossDb: z.number().meta({ description: 'Matched loss of the line at the frequency (dB), as given or from the line.' }),
+    totalLossDb: z
+      .number()
+      .nullable()
+      .meta({ description: 'Loss of the line with this mismatch (dB): net power in over net power delivered to the load; `null` at total reflection at the load (|Γ| = 1), where no net power arrives and the loss is unbounded.' }),
+    lineDissipationW: z.number().optional().meta({ description: 'Power turned into heat in the line (W), when the reading has powers.' }),
   })
   .meta({ id: 'ReferResult' });
 

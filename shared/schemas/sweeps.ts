@@ -112,8 +112,8 @@ export const AnalysedPointSchema = z
     frequencyHz: z.number(),
     loadOhm: ComplexSchema.nullable().meta({ description: 'Impedance (after the move, when a line was given); `null` for an open circuit.' }),
     reflection: ReflectionDetailSchema.meta({ description: 'Γ against `referenceOhm`.' }),
-    swr: SwrOutput,
-    returnLossDb: ReturnLossOutput,
+    swr: SwrOutput.meta({ description: 'Standing-wave ratio; `null` where |Γ| ≥ 1: total reflection, or a measured |Γ| above 1 (calibration error on a near-open or near-short), kept as measured rather than clamped.' }),
+    returnLossDb: ReturnLossOutput.meta({ description: 'Return loss in dB; `null` for a perfect match (Γ = 0); negative where a measured |Γ| is above 1.' }),
   })
   .meta({ id: 'AnalysedPoint' });
 

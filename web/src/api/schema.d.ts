@@ -4187,7 +4187,7 @@ export interface components {
             matchedLossDb: number;
             /** @description Loss with this load: 10·log10(Pin/Pload); `null` when no power reaches the load. */
             totalLossDb: number | null;
-            /** @description Extra loss caused by the mismatch: total − matched. */
+            /** @description Extra loss caused by the mismatch: total − matched; `null` when `totalLossDb` is. */
             mismatchExtraLossDb: number | null;
             atLoad: components["schemas"]["LineEnd"];
             atInput: components["schemas"]["LineEnd"];
@@ -4352,8 +4352,11 @@ export interface components {
                 reflectedPowerW?: number;
                 netPowerW?: number;
             };
+            /** @description Matched loss of the line at the frequency (dB), as given or from the line. */
             matchedLossDb: number;
+            /** @description Loss of the line with this mismatch (dB): net power in over net power delivered to the load; `null` at total reflection at the load (|Γ| = 1), where no net power arrives and the loss is unbounded. */
             totalLossDb: number | null;
+            /** @description Power turned into heat in the line (W), when the reading has powers. */
             lineDissipationW?: number;
         };
         /**
@@ -4943,7 +4946,7 @@ export interface components {
             matchedLossDb: number;
             /** @description Loss with this load: 10·log10(Pin/Pload); `null` when no power reaches the load. */
             totalLossDb: number | null;
-            /** @description Extra loss caused by the mismatch: total − matched. */
+            /** @description Extra loss caused by the mismatch: total − matched; `null` when `totalLossDb` is. */
             mismatchExtraLossDb: number | null;
             atLoad: components["schemas"]["LineEnd"];
             atInput: components["schemas"]["LineEnd"];
@@ -5029,8 +5032,11 @@ export interface components {
                 reflectedPowerW?: number;
                 netPowerW?: number;
             };
+            /** @description Matched loss of the line at the frequency (dB), as given or from the line. */
             matchedLossDb: number;
+            /** @description Loss of the line with this mismatch (dB): net power in over net power delivered to the load; `null` at total reflection at the load (|Γ| = 1), where no net power arrives and the loss is unbounded. */
             totalLossDb: number | null;
+            /** @description Power turned into heat in the line (W), when the reading has powers. */
             lineDissipationW?: number;
             /** @description Matched loss of each section at the frequency, from the transmitter end; they add up to `matchedLossDb`. */
             sectionsMatchedLossDb: number[];
@@ -5200,12 +5206,12 @@ export interface components {
                 angleDeg: number;
             };
             /**
-             * @description Standing-wave ratio; `null` at total reflection (|Γ| = 1), where it is unbounded.
+             * @description Standing-wave ratio; `null` where |Γ| ≥ 1: total reflection, or a measured |Γ| above 1 (calibration error on a near-open or near-short), kept as measured rather than clamped.
              * @example 1.5
              */
             swr: number | null;
             /**
-             * @description Return loss in dB; `null` for a perfect match (Γ = 0), where it is unbounded.
+             * @description Return loss in dB; `null` for a perfect match (Γ = 0); negative where a measured |Γ| is above 1.
              * @example 13.979400086720377
              */
             returnLossDb: number | null;
