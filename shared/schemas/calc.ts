@@ -137,6 +137,11 @@ export const LineSpecSchema = z
     rlgc: RlgcSchema.optional(),
     lengthM: z.number().min(0).optional().meta({ description: 'Physical length in metres.' }),
     lengthFt: z.number().min(0).optional().meta({ description: 'Physical length in feet.' }),
+    maxVoltageRmsV: z
+      .number()
+      .positive()
+      .optional()
+      .meta({ description: 'Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog cable brings its own rating; this replaces it (a connector rated lower than the cable, for example).', example: 500 }),
   })
   .superRefine((v, ctx) => {
     const lengths = present(v, ['lengthM', 'lengthFt']);
@@ -162,7 +167,7 @@ export const LineSpecSchema = z
   .meta({
     id: 'LineSpec',
     description:
-      'A feed line, one of: `{ cableId, lengthM | lengthFt }`; `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` (matched loss at the frequency); `{ rlgc, lengthM | lengthFt }` (telegrapher\'s equations, complex Z0).',
+      'A feed line, one of: `{ cableId, lengthM | lengthFt }`; `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` (matched loss at the frequency); `{ rlgc, lengthM | lengthFt }` (telegrapher\'s equations, complex Z0). Any of them may add `maxVoltageRmsV`, the rating the computed voltage is checked against.',
     example: { cableId: 'rg-213', lengthM: 30 },
   });
 

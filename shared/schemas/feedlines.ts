@@ -20,9 +20,9 @@ export const FeedlineSectionSchema = z
   .superRefine((v, ctx) => {
     if (v.insertionLossDb !== undefined) {
       for (const field of LINE_FIELDS) {
-        if (field === 'impedanceOhm') continue;
+        if (field === 'impedanceOhm' || field === 'maxVoltageRmsV') continue;
         if (v[field] !== undefined) {
-          ctx.addIssue({ code: 'custom', path: [field], message: `a connector section has insertionLossDb, label and optionally impedanceOhm only; put ${field} in a cable section of its own` });
+          ctx.addIssue({ code: 'custom', path: [field], message: `a connector section has insertionLossDb, label and optionally impedanceOhm and maxVoltageRmsV only; put ${field} in a cable section of its own` });
         }
       }
       if (v.label === undefined) ctx.addIssue({ code: 'custom', path: ['label'], message: 'name the connector or adapter in label, e.g. "PL-259 to N adapter"' });
@@ -36,7 +36,7 @@ export const FeedlineSectionSchema = z
     id: 'FeedlineSection',
     description:
       'One section, listed from the transmitter end. A cable: `{ cableId, lengthM | lengthFt }`, `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` or `{ rlgc, lengthM | lengthFt }`, each with an optional `label`. ' +
-      'A connector or adapter: `{ insertionLossDb, label }` (a matched loss with no length; its impedance defaults to the nearest cable section\'s Z0, or give `impedanceOhm`).',
+      'A connector or adapter: `{ insertionLossDb, label }` (a matched loss with no length; its impedance defaults to the nearest cable section\'s Z0, or give `impedanceOhm`). Any section may give `maxVoltageRmsV`, its voltage rating: with `powerW`, a computed voltage above it adds a caution.',
     example: { cableId: 'rg-213', lengthM: 28, label: 'Hut to mast foot' },
   });
 

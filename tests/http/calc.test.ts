@@ -126,6 +126,29 @@ describe('POST /api/v1/line', () => {
     expect(Array.isArray(res.body.cautions)).toBe(true);
   });
 
+  it('checks the computed voltage against a rating given with any line form, and a given rating replaces the catalog\'s', async () => {
+    // 1,500 W into a 2,000 Ω load at the end of a 50 Ω line: a high-SWR case well above usual connector ratings.
+    const spec = { impedanceOhm: 50, velocityFactor: 0.66, lossDbPer100m: 2.5, lengthM: 30 };
+    const free = await post('/line', { frequencyHz: 7.1e6, line: spec, loadOhm: 2000, powerW: 1500 }).expect(200);
+    const peak = free.body.peaks.maxVoltageV as number;
+    expect(free.body.cautions).toEqual([]);
+    const rated = await post('/line', { frequencyHz: 7.1e6, line: { ...spec, maxVoltageRmsV: Math.floor(peak) }, loadOhm: 2000, powerW: 1500 }).expect(200);
+    expect(rated.body.peaks.maxVoltageV).toBe(peak);
+    expect(rated.body.cautions).toHaveLength(1);
+    expect(rated.body.cautions[0]).toContain(`rating of ${Math.floor(peak)} V RMS`);
+    expect(rated.body.cautions[0]).toMatch(/local electrical codes and licensed practice/);
+    const above = await post('/line', { frequencyHz: 7.1e6, line: { ...spec, maxVoltageRmsV: Math.ceil(peak) }, loadOhm: 2000, powerW: 1500 }).expect(200);
+    expect(above.body.cautions).toEqual([]);
+    const rlgc = { rlgc: { rOhmPerM: 0.05, lHPerM: 2.5e-7, gSPerM: 0, cFPerM: 1e-10 }, lengthM: 30, maxVoltageRmsV: 100 };
+    expect((await post('/line', { frequencyHz: 7.1e6, line: rlgc, loadOhm: 2000, powerW: 1500 }).expect(200)).body.cautions).toHaveLength(1);
+    // RG-213 is rated 5,000 V RMS in the catalog; a 300 V connector on it is what limits the run.
+    const catalog = await post('/line', { frequencyHz: 7.1e6, line: { cableId: 'rg-213', lengthM: 30 }, loadOhm: 2000, powerW: 1500 }).expect(200);
+    expect(catalog.body.cautions).toEqual([]);
+    const connector = await post('/line', { frequencyHz: 7.1e6, line: { cableId: 'rg-213', lengthM: 30, maxVoltageRmsV: 300 }, loadOhm: 2000, powerW: 1500 }).expect(200);
+    expect(connector.body.cautions).toHaveLength(1);
+    await post('/line', { frequencyHz: 7.1e6, line: { ...spec, maxVoltageRmsV: 0 }, loadOhm: 2000 }).expect(422);
+  });
+
   describe('refuses impossible lines with a 422 naming the field', () => {
     it.each([
       [{ impedanceOhm: 50, velocityFactor: 0.66, lossDbPer100m: 2, lengthM: 10, lengthFt: 30 }, 'line.lengthFt'],

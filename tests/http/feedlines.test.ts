@@ -160,6 +160,16 @@ describe('calculations through a saved feed line', () => {
     expectComplexClose(res.body.inputOhm, { re: 50, im: 0 });
   });
 
+  it('cautions per section when the computed voltage passes a section\'s rating, connectors included', async () => {
+    // 400 W net into SWR 12 on 50 Ω: the standing wave never drops below √(Pf·Z0)·(1 − |Γ|) ≈ 41 V RMS
+    // anywhere (hand calculation), so a 20 V rating is passed wherever the connector sits.
+    const lossless = { impedanceOhm: 50, velocityFactor: 1, lossDbPer100m: 0, lengthM: 10 };
+    const id = await save([lossless, { insertionLossDb: 0.1, label: 'Wall feed-through', maxVoltageRmsV: 20 }, { ...lossless, maxVoltageRmsV: 10_000 }]);
+    const res = await api().post(`/api/v1/feedlines/${id}/line`).set(ctx.auth).send({ frequencyHz: 7_000_000, loadOhm: 600, powerW: 400 }).expect(200);
+    expect(res.body.cautions).toHaveLength(1);
+    expect(res.body.cautions[0]).toMatch(/^Section 2: Caution: the computed RMS voltage on Wall feed-through reaches/);
+  });
+
   it('refers a reading through the sum of the sections\' matched losses, as POST /line/refer does', async () => {
     const id = await save([TWO_SECTIONS[0], { insertionLossDb: 0.1, label: 'N barrel' }, TWO_SECTIONS[1]]);
     const reading = { forwardPowerW: 100, reflectedPowerW: 5 };

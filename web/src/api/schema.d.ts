@@ -4266,7 +4266,7 @@ export interface components {
             powerW?: number;
         };
         /**
-         * @description A feed line, one of: `{ cableId, lengthM | lengthFt }`; `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` (matched loss at the frequency); `{ rlgc, lengthM | lengthFt }` (telegrapher's equations, complex Z0).
+         * @description A feed line, one of: `{ cableId, lengthM | lengthFt }`; `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` (matched loss at the frequency); `{ rlgc, lengthM | lengthFt }` (telegrapher's equations, complex Z0). Any of them may add `maxVoltageRmsV`, the rating the computed voltage is checked against.
          * @example {
          *       "cableId": "rg-213",
          *       "lengthM": 30
@@ -4297,6 +4297,11 @@ export interface components {
             lengthM?: number;
             /** @description Physical length in feet. */
             lengthFt?: number;
+            /**
+             * @description Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog cable brings its own rating; this replaces it (a connector rated lower than the cable, for example).
+             * @example 500
+             */
+            maxVoltageRmsV?: number;
         };
         /**
          * @description Per-metre primary constants for the telegrapher's equations.
@@ -4836,7 +4841,7 @@ export interface components {
             updatedAt: string;
         };
         /**
-         * @description One section, listed from the transmitter end. A cable: `{ cableId, lengthM | lengthFt }`, `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` or `{ rlgc, lengthM | lengthFt }`, each with an optional `label`. A connector or adapter: `{ insertionLossDb, label }` (a matched loss with no length; its impedance defaults to the nearest cable section's Z0, or give `impedanceOhm`).
+         * @description One section, listed from the transmitter end. A cable: `{ cableId, lengthM | lengthFt }`, `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` or `{ rlgc, lengthM | lengthFt }`, each with an optional `label`. A connector or adapter: `{ insertionLossDb, label }` (a matched loss with no length; its impedance defaults to the nearest cable section's Z0, or give `impedanceOhm`). Any section may give `maxVoltageRmsV`, its voltage rating: with `powerW`, a computed voltage above it adds a caution.
          * @example {
          *       "cableId": "rg-213",
          *       "lengthM": 28,
@@ -4868,6 +4873,11 @@ export interface components {
             lengthM?: number;
             /** @description Physical length in feet. */
             lengthFt?: number;
+            /**
+             * @description Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog cable brings its own rating; this replaces it (a connector rated lower than the cable, for example).
+             * @example 500
+             */
+            maxVoltageRmsV?: number;
             /**
              * @description Connector or adapter: its matched insertion loss in dB (no length, no phase).
              * @example 0.1

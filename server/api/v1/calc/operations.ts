@@ -32,6 +32,12 @@ export const catalogOnly: CalculationEnv = { findCable };
 
 /** Turns any of the three line descriptions into the model the domain library transforms through. */
 export function resolveLine(spec: LineSpec, frequencyHz: number, env: CalculationEnv, field = 'line'): LineModel {
+  const model = lineModelOf(spec, frequencyHz, env, field);
+  if (spec.maxVoltageRmsV !== undefined) model.maxVoltageRmsV = spec.maxVoltageRmsV;
+  return model;
+}
+
+function lineModelOf(spec: LineSpec, frequencyHz: number, env: CalculationEnv, field: string): LineModel {
   const lengthM = spec.lengthM ?? (spec.lengthFt ?? 0) * M_PER_FT;
   if (spec.cableId !== undefined) {
     const cable = env.findCable(spec.cableId);

@@ -28,7 +28,7 @@ export function sectionModels(sections: readonly FeedlineSection[], frequencyHz:
   return sections.map((s, i) => {
     if (!isConnectorSection(s)) return models[i]!;
     const z0 = s.impedanceOhm !== undefined ? toComplex(s.impedanceOhm) : nearestZ0(i);
-    return { ...attenuatorSection(s.insertionLossDb, z0, `${field}.${i}`), label: s.label };
+    return { ...attenuatorSection(s.insertionLossDb, z0, `${field}.${i}`), label: s.label, maxVoltageRmsV: s.maxVoltageRmsV };
   });
 }
 

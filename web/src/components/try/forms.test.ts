@@ -82,6 +82,8 @@ describe('the line form of the Try page', () => {
         powerW: 100,
       },
     });
+    await type(wrapper, '#ln-rating', '600');
+    expect((lastState(wrapper).request as { body: { line: object } }).body.line).toMatchObject({ maxVoltageRmsV: 600 });
     await type(wrapper, '#ln-c', '0');
     expect(lastState(wrapper).request).toBeNull();
     expect(lastState(wrapper).issues.join(' ')).toMatch(/cFPerM/);
