@@ -173,10 +173,71 @@ export const LineSpecSchema = z
 
 export type LineSpec = z.infer<typeof LineSpecSchema>;
 
+/** Most sections one feed line may have; a station run has a handful. */
+export const MAX_FEEDLINE_SECTIONS = 32;
+
+const LINE_FIELDS = Object.keys(LineSpecSchema.shape) as (keyof typeof LineSpecSchema.shape)[];
+
+/**
+ * One section of a feed line: a length of cable in any `LineSpec` form, or a connector/adapter as a
+ * fixed insertion loss. The connector form is recognised by `insertionLossDb`.
+ */
+export const FeedlineSectionSchema = z
+  .strictObject({
+    ...LineSpecSchema.shape,
+    insertionLossDb: z.number().min(0).max(60).optional().meta({ description: 'Connector or adapter: its matched insertion loss in dB (no length, no phase).', example: 0.1 }),
+    label: z.string().trim().min(1).max(100).optional().meta({ description: 'What the section is, e.g. "N bulkhead at the hut wall". Required for a connector.', example: 'N bulkhead at the hut wall' }),
+  })
+  .superRefine((v, ctx) => {
+    if (v.insertionLossDb !== undefined) {
+      for (const field of LINE_FIELDS) {
+        if (field === 'impedanceOhm' || field === 'maxVoltageRmsV') continue;
+        if (v[field] !== undefined) {
+          ctx.addIssue({ code: 'custom', path: [field], message: `a connector section has insertionLossDb, label and optionally impedanceOhm and maxVoltageRmsV only; put ${field} in a cable section of its own` });
+        }
+      }
+      if (v.label === undefined) ctx.addIssue({ code: 'custom', path: ['label'], message: 'name the connector or adapter in label, e.g. "PL-259 to N adapter"' });
+      return;
+    }
+    const { label: _label, insertionLossDb: _loss, ...line } = v;
+    const parsed = LineSpecSchema.safeParse(line);
+    if (!parsed.success) for (const issue of parsed.error.issues) ctx.addIssue({ code: 'custom', path: issue.path, message: issue.message });
+  })
+  .meta({
+    id: 'FeedlineSection',
+    description:
+      'One section, listed from the transmitter end. A cable: `{ cableId, lengthM | lengthFt }`, `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` or `{ rlgc, lengthM | lengthFt }`, each with an optional `label`. ' +
+      'A connector or adapter: `{ insertionLossDb, label }` (a matched loss with no length; its impedance defaults to the nearest cable section\'s Z0, or give `impedanceOhm`). Any section may give `maxVoltageRmsV`, its voltage rating: with `powerW`, a computed voltage above it adds a caution.',
+    example: { cableId: 'rg-213', lengthM: 28, label: 'Hut to mast foot' },
+  });
+
+export type FeedlineSection = z.infer<typeof FeedlineSectionSchema>;
+
+/** True for the connector form of a section. */
+export function isConnectorSection(section: FeedlineSection): section is FeedlineSection & { insertionLossDb: number; label: string } {
+  return section.insertionLossDb !== undefined;
+}
+
+export const LineSectionsSchema = z
+  .array(FeedlineSectionSchema)
+  .min(1)
+  .max(MAX_FEEDLINE_SECTIONS)
+  .superRefine((sections, ctx) => {
+    if (sections.every((s) => s.insertionLossDb !== undefined)) {
+      ctx.addIssue({ code: 'custom', path: [], message: 'a feed line needs at least one cable section besides its connectors' });
+    }
+  })
+  .meta({ description: `Sections from the transmitter end to the antenna (1 to ${MAX_FEEDLINE_SECTIONS}).` });
+
+/** A line as one `LineSpec`, or as sections from the transmitter end (cables and connectors). */
+export const LineOrSectionsSchema = z
+  .union([LineSpecSchema, LineSectionsSchema])
+  .meta({ description: 'One `LineSpec`, or an array of `FeedlineSection`s from the transmitter end (cables of different kinds joined by connectors), as in a saved feed line.' });
+
 export const LineRequestSchema = z
   .strictObject({
     frequencyHz: FrequencyHz,
-    line: LineSpecSchema,
+    line: LineOrSectionsSchema,
     loadOhm: ImpedanceSchema.meta({ description: 'Load impedance at the far (antenna) end, ohms.' }),
     powerW: PowerW.optional().meta({ description: 'Net power into the line input (W). Adds `power` and `peaks` to the result.' }),
   })
@@ -206,6 +267,15 @@ export const LineResultSchema = z
   })
   .meta({ id: 'LineResult' });
 
+export const FeedlineLineResultSchema = LineResultSchema.extend({
+  sections: z.array(LineResultSchema).meta({ description: 'Each section on its own, from the transmitter end; a section\'s load is the next one\'s input.' }),
+}).meta({ id: 'FeedlineLineResult', description: 'The whole feed line (totals end to end) and each section.' });
+
+/** What POST /line answers: a LineResult, with `sections` when the line was given as sections. */
+export const LineAnswerSchema = z
+  .union([FeedlineLineResultSchema, LineResultSchema])
+  .meta({ description: 'A `LineResult`; when `line` was given as sections, a `FeedlineLineResult` (the totals end to end, and `sections`).' });
+
 // ---------------------------------------------------------------- refer
 
 export const ReadingSchema = z
@@ -220,7 +290,7 @@ export const ReadingSchema = z
 export const ReferRequestSchema = z
   .strictObject({
     frequencyHz: FrequencyHz.optional(),
-    line: LineSpecSchema.optional(),
+    line: LineOrSectionsSchema.optional(),
     matchedLossDb: z.number().min(0).optional().meta({ description: 'The line\'s matched loss, instead of `frequencyHz` + `line`.' }),
     direction: z.enum(['sourceToLoad', 'loadToSource']).meta({ description: '`sourceToLoad`: the reading was taken at the transmitter; `loadToSource`: at the antenna.' }),
     reading: ReadingSchema,
@@ -258,6 +328,10 @@ export const ReferResultSchema = z
       .nullable()
       .meta({ description: 'Loss of the line with this mismatch (dB): net power in over net power delivered to the load; `null` at total reflection at the load (|Γ| = 1), where no net power arrives and the loss is unbounded.' }),
     lineDissipationW: z.number().optional().meta({ description: 'Power turned into heat in the line (W), when the reading has powers.' }),
+    sectionsMatchedLossDb: z
+      .array(z.number())
+      .optional()
+      .meta({ description: 'When the line was given as sections: the matched loss of each at the frequency, from the transmitter end; they add up to `matchedLossDb`.' }),
   })
   .meta({ id: 'ReferResult' });
 

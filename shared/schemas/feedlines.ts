@@ -1,62 +1,9 @@
 import { z } from 'zod';
 import { FrequencyHz, ImpedanceSchema, PowerW } from './common.ts';
-import { LineResultSchema, LineSpecSchema, ReadingSchema, ReferResultSchema } from './calc.ts';
+import { FeedlineSectionSchema, LineSectionsSchema, ReadingSchema, ReferResultSchema } from './calc.ts';
 
-/** Most sections one feed line may have; a station run has a handful. */
-export const MAX_FEEDLINE_SECTIONS = 32;
-
-const LINE_FIELDS = Object.keys(LineSpecSchema.shape) as (keyof typeof LineSpecSchema.shape)[];
-
-/**
- * One section of a feed line: a length of cable in any `LineSpec` form, or a connector/adapter as a
- * fixed insertion loss. The connector form is recognised by `insertionLossDb`.
- */
-export const FeedlineSectionSchema = z
-  .strictObject({
-    ...LineSpecSchema.shape,
-    insertionLossDb: z.number().min(0).max(60).optional().meta({ description: 'Connector or adapter: its matched insertion loss in dB (no length, no phase).', example: 0.1 }),
-    label: z.string().trim().min(1).max(100).optional().meta({ description: 'What the section is, e.g. "N bulkhead at the hut wall". Required for a connector.', example: 'N bulkhead at the hut wall' }),
-  })
-  .superRefine((v, ctx) => {
-    if (v.insertionLossDb !== undefined) {
-      for (const field of LINE_FIELDS) {
-        if (field === 'impedanceOhm' || field === 'maxVoltageRmsV') continue;
-        if (v[field] !== undefined) {
-          ctx.addIssue({ code: 'custom', path: [field], message: `a connector section has insertionLossDb, label and optionally impedanceOhm and maxVoltageRmsV only; put ${field} in a cable section of its own` });
-        }
-      }
-      if (v.label === undefined) ctx.addIssue({ code: 'custom', path: ['label'], message: 'name the connector or adapter in label, e.g. "PL-259 to N adapter"' });
-      return;
-    }
-    const { label: _label, insertionLossDb: _loss, ...line } = v;
-    const parsed = LineSpecSchema.safeParse(line);
-    if (!parsed.success) for (const issue of parsed.error.issues) ctx.addIssue({ code: 'custom', path: issue.path, message: issue.message });
-  })
-  .meta({
-    id: 'FeedlineSection',
-    description:
-      'One section, listed from the transmitter end. A cable: `{ cableId, lengthM | lengthFt }`, `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` or `{ rlgc, lengthM | lengthFt }`, each with an optional `label`. ' +
-      'A connector or adapter: `{ insertionLossDb, label }` (a matched loss with no length; its impedance defaults to the nearest cable section\'s Z0, or give `impedanceOhm`). Any section may give `maxVoltageRmsV`, its voltage rating: with `powerW`, a computed voltage above it adds a caution.',
-    example: { cableId: 'rg-213', lengthM: 28, label: 'Hut to mast foot' },
-  });
-
-export type FeedlineSection = z.infer<typeof FeedlineSectionSchema>;
-
-/** True for the connector form of a section. */
-export function isConnectorSection(section: FeedlineSection): section is FeedlineSection & { insertionLossDb: number; label: string } {
-  return section.insertionLossDb !== undefined;
-}
-
-const SectionsSchema = z
-  .array(FeedlineSectionSchema)
-  .min(1)
-  .max(MAX_FEEDLINE_SECTIONS)
-  .superRefine((sections, ctx) => {
-    if (sections.every((s) => s.insertionLossDb !== undefined)) {
-      ctx.addIssue({ code: 'custom', path: [], message: 'a feed line needs at least one cable section besides its connectors' });
-    }
-  })
-  .meta({ description: `Sections from the transmitter end to the antenna (1 to ${MAX_FEEDLINE_SECTIONS}).` });
+// Sections are described in calc.ts, beside LineSpec: POST /line and /line/refer take them inline too.
+export { FeedlineLineResultSchema, FeedlineSectionSchema, isConnectorSection, MAX_FEEDLINE_SECTIONS, type FeedlineSection } from './calc.ts';
 
 const FEEDLINE_EXAMPLE = {
   name: 'Hut to mast, 40 m dipole',
@@ -72,7 +19,7 @@ export const CreateFeedlineSchema = z
   .strictObject({
     name: z.string().trim().min(1).max(120).meta({ example: 'Hut to mast, 40 m dipole' }),
     notes: z.string().max(2000).default('').meta({ description: 'Free text.' }),
-    sections: SectionsSchema,
+    sections: LineSectionsSchema,
   })
   .meta({ id: 'CreateFeedline', description: 'A named feed line. Cable ids may be catalog or account cables (GET /api/v1/cables).', example: FEEDLINE_EXAMPLE });
 
@@ -80,7 +27,7 @@ export const UpdateFeedlineSchema = z
   .strictObject({
     name: z.string().trim().min(1).max(120).optional(),
     notes: z.string().max(2000).optional(),
-    sections: SectionsSchema.optional().meta({ description: 'Replaces all sections.' }),
+    sections: LineSectionsSchema.optional().meta({ description: 'Replaces all sections.' }),
   })
   .refine((v) => Object.keys(v).length > 0, { message: 'send at least one of name, notes, sections' })
   .meta({ id: 'UpdateFeedline', example: { name: 'Hut to mast (new N connectors)' } });
@@ -109,9 +56,6 @@ export const FeedlineLineRequestSchema = z
   })
   .meta({ id: 'FeedlineLineRequest', example: { frequencyHz: 7_100_000, loadOhm: { re: 62, im: -14 }, powerW: 100 } });
 
-export const FeedlineLineResultSchema = LineResultSchema.extend({
-  sections: z.array(LineResultSchema).meta({ description: 'Each section on its own, from the transmitter end; a section\'s load is the next one\'s input.' }),
-}).meta({ id: 'FeedlineLineResult', description: 'The whole feed line (totals end to end) and each section.' });
 
 export const FeedlineReferRequestSchema = z
   .strictObject({

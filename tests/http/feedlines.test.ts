@@ -1,4 +1,5 @@
 import { randomUUID } from 'node:crypto';
+import fc from 'fast-check';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { findCable } from '../../shared/rf/cables.ts';
@@ -95,7 +96,7 @@ describe('saving feed lines', () => {
 });
 
 describe('bad feed lines are problems that name the field', () => {
-  it('wants a label on a connector (400)', async () => {
+  it('wants a label on a connector (422)', async () => {
     const res = await api().post('/api/v1/feedlines').set(ctx.auth).send({ name: 'x', sections: [TWO_SECTIONS[0], { insertionLossDb: 0.1 }] }).expect(422);
     expect(res.body.errors).toContainEqual(expect.objectContaining({ field: 'sections.1.label' }));
   });
@@ -197,6 +198,64 @@ describe('calculations through a saved feed line', () => {
     const bad = await api().post(`/api/v1/feedlines/${id}/line`).set(ctx.auth).send({ frequencyHz: 'fast', loadOhm: 50 }).expect(400);
     expect(bad.body.errors[0].field).toBe('frequencyHz');
     await api().post(`/api/v1/feedlines/${randomUUID()}/line`).set(ctx.auth).send({ frequencyHz, loadOhm }).expect(404);
+  });
+});
+
+describe('sections given inline to POST /line, /line/refer and batch', () => {
+  const frequencyHz = 14_200_000;
+  const loadOhm = { re: 72, im: 18 };
+  const SECTIONS = [TWO_SECTIONS[0], { insertionLossDb: 0.25, label: 'N barrel', maxVoltageRmsV: 20 }, TWO_SECTIONS[1]];
+
+  it('answers POST /line with sections exactly as the same sections saved as a feed line', async () => {
+    const id = await save(SECTIONS);
+    const saved = await api().post(`/api/v1/feedlines/${id}/line`).set(ctx.auth).send({ frequencyHz, loadOhm, powerW: 100 }).expect(200);
+    const inline = await api().post('/api/v1/line').set(ctx.auth).send({ frequencyHz, line: SECTIONS, loadOhm, powerW: 100 }).expect(200);
+    expect(inline.body).toEqual(saved.body);
+    expect(inline.body.sections).toHaveLength(3);
+    expect(inline.body.cautions[0]).toMatch(/^Section 2: /);
+  });
+
+  it('refers a reading through inline sections exactly as through the saved feed line', async () => {
+    const id = await save(SECTIONS);
+    const reading = { swr: 1.8 };
+    const saved = await api().post(`/api/v1/feedlines/${id}/refer`).set(ctx.auth).send({ frequencyHz, direction: 'sourceToLoad', reading }).expect(200);
+    const inline = await api().post('/api/v1/line/refer').set(ctx.auth).send({ frequencyHz, line: SECTIONS, direction: 'sourceToLoad', reading }).expect(200);
+    expect(inline.body).toEqual(saved.body);
+    expect(inline.body.sectionsMatchedLossDb[1]).toBe(0.25);
+  });
+
+  it('runs sections in a batch item, and names a bad section\'s field from the request root', async () => {
+    const res = await api()
+      .post('/api/v1/batch')
+      .set(ctx.auth)
+      .send({ items: [{ op: 'line', input: { frequencyHz, line: SECTIONS, loadOhm } }, { op: 'line', input: { frequencyHz, line: [TWO_SECTIONS[0], { cableId: 'no-such-cable', lengthM: 3 }], loadOhm } }] })
+      .expect(200);
+    expect(res.body.results[0].output.sections).toHaveLength(3);
+    expect(res.body.results[1].problem.errors[0].field).toBe('items.1.input.line.1.cableId');
+    const single = await api().post('/api/v1/line').set(ctx.auth).send({ frequencyHz, line: [{ insertionLossDb: 0.1 }], loadOhm }).expect(422);
+    expect(single.body.errors.map((e: { field: string }) => e.field)).toContain('line.0.label');
+    await api().post('/api/v1/line').set(ctx.auth).send({ frequencyHz, line: [], loadOhm }).expect(422);
+  });
+
+  it('gives the same figures for one section in an array as for the same LineSpec (property)', async () => {
+    await fc.assert(
+      fc.asyncProperty(
+        fc.double({ min: 1, max: 200, noNaN: true }),
+        fc.double({ min: -200, max: 200, noNaN: true }),
+        fc.double({ min: 0.5, max: 300, noNaN: true }),
+        async (re, im, lengthM) => {
+          const line = { impedanceOhm: 50, velocityFactor: 0.8, lossDbPer100m: 3, lengthM };
+          const one = await api().post('/api/v1/line').set(ctx.auth).send({ frequencyHz, line, loadOhm: { re, im } }).expect(200);
+          const array = await api().post('/api/v1/line').set(ctx.auth).send({ frequencyHz, line: [line], loadOhm: { re, im } }).expect(200);
+          const { sections, ...totals } = array.body;
+          expect(sections).toEqual([one.body]);
+          expect(totals.inputOhm).toEqual(one.body.inputOhm);
+          expect(totals.atLoad).toEqual(one.body.atLoad);
+          expect(totals.totalLossDb).toBeCloseTo(one.body.totalLossDb, 12);
+        },
+      ),
+      { numRuns: 25 },
+    );
   });
 });
 

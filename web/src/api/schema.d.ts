@@ -320,7 +320,7 @@ export interface paths {
         put?: never;
         /**
          * Transform a load through a lossy line
-         * @description Input impedance, matched and total loss, SWR at both ends; with `powerW` also the power delivered and dissipated and the RMS voltage/current maxima on the line, with cautions when a voltage exceeds the cable's rating.
+         * @description Input impedance, matched and total loss, SWR at both ends; with `powerW` also the power delivered and dissipated and the RMS voltage/current maxima on the line, with cautions when a voltage exceeds the cable's rating. `line` is one line description, or sections from the transmitter end (cables of different kinds, connectors) as in a saved feed line: the answer then adds each section's own figures in `sections`.
          */
         post: {
             parameters: {
@@ -345,7 +345,7 @@ export interface paths {
                         [name: string]: unknown;
                     };
                     content: {
-                        "application/json": components["schemas"]["LineResult"];
+                        "application/json": components["schemas"]["FeedlineLineResult"] | components["schemas"]["LineResult"];
                     };
                 };
                 /** @description The request is malformed or fails validation (field list in `errors`). */
@@ -432,7 +432,7 @@ export interface paths {
         put?: never;
         /**
          * Refer readings between the two ends of a line
-         * @description Moves an SWR or forward/reflected power reading from the transmitter end to the antenna end (or back) through the line's matched loss. A lossy line makes a bad load look good at the transmitter: readings that imply a load reflection above 1 are a 422 problem, because the readings and the stated loss cannot both be right.
+         * @description Moves an SWR or forward/reflected power reading from the transmitter end to the antenna end (or back) through the line's matched loss (of all its sections, when `line` is given as sections). A lossy line makes a bad load look good at the transmitter: readings that imply a load reflection above 1 are a 422 problem, because the readings and the stated loss cannot both be right.
          */
         post: {
             parameters: {
@@ -4166,6 +4166,73 @@ export interface components {
              */
             referenceOhm?: number | components["schemas"]["Complex"];
         };
+        /** @description The whole feed line (totals end to end) and each section. */
+        FeedlineLineResult: {
+            /**
+             * @description Impedance seen at the line input.
+             * @example {
+             *       "re": 36.5,
+             *       "im": -12.2
+             *     }
+             */
+            inputOhm: {
+                /** @description Real part. */
+                re: number;
+                /** @description Imaginary part. */
+                im: number;
+            };
+            characteristicOhm: components["schemas"]["Complex"];
+            electricalLengthDeg: number;
+            lengthWavelengths: number;
+            /** @description Loss of the line when matched. */
+            matchedLossDb: number;
+            /** @description Loss with this load: 10·log10(Pin/Pload); `null` when no power reaches the load. */
+            totalLossDb: number | null;
+            /** @description Extra loss caused by the mismatch: total − matched; `null` when `totalLossDb` is. */
+            mismatchExtraLossDb: number | null;
+            atLoad: components["schemas"]["LineEnd"];
+            atInput: components["schemas"]["LineEnd"];
+            power?: {
+                inputW: number;
+                loadW: number;
+                lineDissipationW: number;
+            };
+            /** @description RMS voltage and current maxima on the line and their distance from the input. */
+            peaks?: {
+                maxVoltageV: number;
+                maxCurrentA: number;
+                maxVoltageAtM: number;
+                maxCurrentAtM: number;
+            };
+            /** @description Safety cautions, e.g. a voltage above the cable's rating. Show them to the user. */
+            cautions: string[];
+            /** @description Each section on its own, from the transmitter end; a section's load is the next one's input. */
+            sections: components["schemas"]["LineResult"][];
+        };
+        /** @description Mismatch at one end of the line, against the line's Z0. */
+        LineEnd: {
+            reflection: components["schemas"]["ReflectionDetail"];
+            /**
+             * @description Standing-wave ratio; `null` at total reflection (|Γ| = 1), where it is unbounded.
+             * @example 1.5
+             */
+            swr: number | null;
+            /**
+             * @description Return loss in dB; `null` for a perfect match (Γ = 0), where it is unbounded.
+             * @example 13.979400086720377
+             */
+            returnLossDb: number | null;
+            impedanceOhm: components["schemas"]["Complex"];
+        };
+        /** @description A reflection coefficient with its magnitude and angle. */
+        ReflectionDetail: {
+            re: number;
+            im: number;
+            /** @description |Γ|. */
+            magnitude: number;
+            /** @description Angle of Γ in degrees, (−180, 180]. */
+            angleDeg: number;
+        };
         LineResult: {
             /**
              * @description Impedance seen at the line input.
@@ -4206,30 +4273,6 @@ export interface components {
             /** @description Safety cautions, e.g. a voltage above the cable's rating. Show them to the user. */
             cautions: string[];
         };
-        /** @description Mismatch at one end of the line, against the line's Z0. */
-        LineEnd: {
-            reflection: components["schemas"]["ReflectionDetail"];
-            /**
-             * @description Standing-wave ratio; `null` at total reflection (|Γ| = 1), where it is unbounded.
-             * @example 1.5
-             */
-            swr: number | null;
-            /**
-             * @description Return loss in dB; `null` for a perfect match (Γ = 0), where it is unbounded.
-             * @example 13.979400086720377
-             */
-            returnLossDb: number | null;
-            impedanceOhm: components["schemas"]["Complex"];
-        };
-        /** @description A reflection coefficient with its magnitude and angle. */
-        ReflectionDetail: {
-            re: number;
-            im: number;
-            /** @description |Γ|. */
-            magnitude: number;
-            /** @description Angle of Γ in degrees, (−180, 180]. */
-            angleDeg: number;
-        };
         /**
          * @example {
          *       "frequencyHz": 14200000,
@@ -4250,7 +4293,8 @@ export interface components {
              * @example 14200000
              */
             frequencyHz: number;
-            line: components["schemas"]["LineSpec"];
+            /** @description One `LineSpec`, or an array of `FeedlineSection`s from the transmitter end (cables of different kinds joined by connectors), as in a saved feed line. */
+            line: components["schemas"]["LineSpec"] | components["schemas"]["FeedlineSection"][];
             /**
              * @description Load impedance at the far (antenna) end, ohms.
              * @example {
@@ -4322,6 +4366,55 @@ export interface components {
             /** @description Shunt capacitance per metre (F/m). */
             cFPerM: number;
         };
+        /**
+         * @description One section, listed from the transmitter end. A cable: `{ cableId, lengthM | lengthFt }`, `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` or `{ rlgc, lengthM | lengthFt }`, each with an optional `label`. A connector or adapter: `{ insertionLossDb, label }` (a matched loss with no length; its impedance defaults to the nearest cable section's Z0, or give `impedanceOhm`). Any section may give `maxVoltageRmsV`, its voltage rating: with `powerW`, a computed voltage above it adds a caution.
+         * @example {
+         *       "cableId": "rg-213",
+         *       "lengthM": 28,
+         *       "label": "Hut to mast foot"
+         *     }
+         */
+        FeedlineSection: {
+            /**
+             * @description A cable from `GET /api/v1/cables` (its loss at the frequency comes from the catalog).
+             * @example rg-213
+             */
+            cableId?: string;
+            /**
+             * @description Characteristic impedance Z0 in ohms.
+             * @example {
+             *       "re": 72,
+             *       "im": 18
+             *     }
+             */
+            impedanceOhm?: number | components["schemas"]["Complex"];
+            /** @description Velocity factor, 0 < VF ≤ 1. */
+            velocityFactor?: number;
+            /** @description Matched loss at this frequency, dB per 100 m. */
+            lossDbPer100m?: number;
+            /** @description Matched loss at this frequency, dB per 100 ft. */
+            lossDbPer100ft?: number;
+            rlgc?: components["schemas"]["Rlgc"];
+            /** @description Physical length in metres. */
+            lengthM?: number;
+            /** @description Physical length in feet. */
+            lengthFt?: number;
+            /**
+             * @description Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog cable brings its own rating; this replaces it (a connector rated lower than the cable, for example).
+             * @example 500
+             */
+            maxVoltageRmsV?: number;
+            /**
+             * @description Connector or adapter: its matched insertion loss in dB (no length, no phase).
+             * @example 0.1
+             */
+            insertionLossDb?: number;
+            /**
+             * @description What the section is, e.g. "N bulkhead at the hut wall". Required for a connector.
+             * @example N bulkhead at the hut wall
+             */
+            label?: string;
+        };
         ReferResult: {
             /** @description At the transmitter end. */
             source: {
@@ -4363,6 +4456,8 @@ export interface components {
             totalLossDb: number | null;
             /** @description Power turned into heat in the line (W), when the reading has powers. */
             lineDissipationW?: number;
+            /** @description When the line was given as sections: the matched loss of each at the frequency, from the transmitter end; they add up to `matchedLossDb`. */
+            sectionsMatchedLossDb?: number[];
         };
         /**
          * @example {
@@ -4384,7 +4479,8 @@ export interface components {
              * @example 14200000
              */
             frequencyHz?: number;
-            line?: components["schemas"]["LineSpec"];
+            /** @description One `LineSpec`, or an array of `FeedlineSection`s from the transmitter end (cables of different kinds joined by connectors), as in a saved feed line. */
+            line?: components["schemas"]["LineSpec"] | components["schemas"]["FeedlineSection"][];
             /** @description The line's matched loss, instead of `frequencyHz` + `line`. */
             matchedLossDb?: number;
             /**
@@ -4523,7 +4619,7 @@ export interface components {
             /** @enum {boolean} */
             ok: true;
             /** @description The same body the single endpoint of `op` answers. */
-            output: components["schemas"]["MismatchResult"] | components["schemas"]["ReflectionResult"] | components["schemas"]["LineResult"] | components["schemas"]["ReferResult"] | components["schemas"]["MatchResult"];
+            output: components["schemas"]["MismatchResult"] | components["schemas"]["ReflectionResult"] | components["schemas"]["FeedlineLineResult"] | components["schemas"]["LineResult"] | components["schemas"]["ReferResult"] | components["schemas"]["MatchResult"];
         } | {
             /** @enum {boolean} */
             ok: false;
@@ -4549,7 +4645,7 @@ export interface components {
             /** @enum {boolean} */
             ok: true;
             /** @description The same body the single endpoint of `op` answers. */
-            output: components["schemas"]["MismatchResult"] | components["schemas"]["ReflectionResult"] | components["schemas"]["LineResult"] | components["schemas"]["ReferResult"] | components["schemas"]["MatchResult"];
+            output: components["schemas"]["MismatchResult"] | components["schemas"]["ReflectionResult"] | components["schemas"]["FeedlineLineResult"] | components["schemas"]["LineResult"] | components["schemas"]["ReferResult"] | components["schemas"]["MatchResult"];
         } | {
             line: number;
             /** @enum {boolean} */
@@ -4841,55 +4937,6 @@ export interface components {
             updatedAt: string;
         };
         /**
-         * @description One section, listed from the transmitter end. A cable: `{ cableId, lengthM | lengthFt }`, `{ impedanceOhm, velocityFactor, lossDbPer100m | lossDbPer100ft, lengthM | lengthFt }` or `{ rlgc, lengthM | lengthFt }`, each with an optional `label`. A connector or adapter: `{ insertionLossDb, label }` (a matched loss with no length; its impedance defaults to the nearest cable section's Z0, or give `impedanceOhm`). Any section may give `maxVoltageRmsV`, its voltage rating: with `powerW`, a computed voltage above it adds a caution.
-         * @example {
-         *       "cableId": "rg-213",
-         *       "lengthM": 28,
-         *       "label": "Hut to mast foot"
-         *     }
-         */
-        FeedlineSection: {
-            /**
-             * @description A cable from `GET /api/v1/cables` (its loss at the frequency comes from the catalog).
-             * @example rg-213
-             */
-            cableId?: string;
-            /**
-             * @description Characteristic impedance Z0 in ohms.
-             * @example {
-             *       "re": 72,
-             *       "im": 18
-             *     }
-             */
-            impedanceOhm?: number | components["schemas"]["Complex"];
-            /** @description Velocity factor, 0 < VF ≤ 1. */
-            velocityFactor?: number;
-            /** @description Matched loss at this frequency, dB per 100 m. */
-            lossDbPer100m?: number;
-            /** @description Matched loss at this frequency, dB per 100 ft. */
-            lossDbPer100ft?: number;
-            rlgc?: components["schemas"]["Rlgc"];
-            /** @description Physical length in metres. */
-            lengthM?: number;
-            /** @description Physical length in feet. */
-            lengthFt?: number;
-            /**
-             * @description Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog cable brings its own rating; this replaces it (a connector rated lower than the cable, for example).
-             * @example 500
-             */
-            maxVoltageRmsV?: number;
-            /**
-             * @description Connector or adapter: its matched insertion loss in dB (no length, no phase).
-             * @example 0.1
-             */
-            insertionLossDb?: number;
-            /**
-             * @description What the section is, e.g. "N bulkhead at the hut wall". Required for a connector.
-             * @example N bulkhead at the hut wall
-             */
-            label?: string;
-        };
-        /**
          * @description A named feed line. Cable ids may be catalog or account cables (GET /api/v1/cables).
          * @example {
          *       "name": "Hut to mast, 40 m dipole",
@@ -4933,49 +4980,6 @@ export interface components {
             notes?: string;
             /** @description Replaces all sections. */
             sections?: components["schemas"]["FeedlineSection"][];
-        };
-        /** @description The whole feed line (totals end to end) and each section. */
-        FeedlineLineResult: {
-            /**
-             * @description Impedance seen at the line input.
-             * @example {
-             *       "re": 36.5,
-             *       "im": -12.2
-             *     }
-             */
-            inputOhm: {
-                /** @description Real part. */
-                re: number;
-                /** @description Imaginary part. */
-                im: number;
-            };
-            characteristicOhm: components["schemas"]["Complex"];
-            electricalLengthDeg: number;
-            lengthWavelengths: number;
-            /** @description Loss of the line when matched. */
-            matchedLossDb: number;
-            /** @description Loss with this load: 10·log10(Pin/Pload); `null` when no power reaches the load. */
-            totalLossDb: number | null;
-            /** @description Extra loss caused by the mismatch: total − matched; `null` when `totalLossDb` is. */
-            mismatchExtraLossDb: number | null;
-            atLoad: components["schemas"]["LineEnd"];
-            atInput: components["schemas"]["LineEnd"];
-            power?: {
-                inputW: number;
-                loadW: number;
-                lineDissipationW: number;
-            };
-            /** @description RMS voltage and current maxima on the line and their distance from the input. */
-            peaks?: {
-                maxVoltageV: number;
-                maxCurrentA: number;
-                maxVoltageAtM: number;
-                maxCurrentAtM: number;
-            };
-            /** @description Safety cautions, e.g. a voltage above the cable's rating. Show them to the user. */
-            cautions: string[];
-            /** @description Each section on its own, from the transmitter end; a section's load is the next one's input. */
-            sections: components["schemas"]["LineResult"][];
         };
         /**
          * @example {

@@ -28,14 +28,15 @@ const CALCULATION_ROUTES: { name: CalculationName; path: string; summary: string
     path: '/line',
     summary: 'Transform a load through a lossy line',
     description:
-      'Input impedance, matched and total loss, SWR at both ends; with `powerW` also the power delivered and dissipated and the RMS voltage/current maxima on the line, with cautions when a voltage exceeds the cable\'s rating.',
+      'Input impedance, matched and total loss, SWR at both ends; with `powerW` also the power delivered and dissipated and the RMS voltage/current maxima on the line, with cautions when a voltage exceeds the cable\'s rating. ' +
+      '`line` is one line description, or sections from the transmitter end (cables of different kinds, connectors) as in a saved feed line: the answer then adds each section\'s own figures in `sections`.',
   },
   {
     name: 'refer',
     path: '/line/refer',
     summary: 'Refer readings between the two ends of a line',
     description:
-      'Moves an SWR or forward/reflected power reading from the transmitter end to the antenna end (or back) through the line\'s matched loss. A lossy line makes a bad load look good at the transmitter: readings that imply a load reflection above 1 are a 422 problem, because the readings and the stated loss cannot both be right.',
+      'Moves an SWR or forward/reflected power reading from the transmitter end to the antenna end (or back) through the line\'s matched loss (of all its sections, when `line` is given as sections). A lossy line makes a bad load look good at the transmitter: readings that imply a load reflection above 1 are a 422 problem, because the readings and the stated loss cannot both be right.',
   },
   {
     name: 'match',

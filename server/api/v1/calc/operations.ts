@@ -1,15 +1,12 @@
 import type { z } from 'zod';
-import { findCable, type CableType } from '../../../../shared/rf/cables.ts';
-import { DB_PER_NEPER, M_PER_FT } from '../../../../shared/rf/constants.ts';
-import { RfInputError } from '../../../../shared/rf/errors.ts';
-import { lineFromCable, lineFromLossSpec, lineFromRlgc, transformLine, type LineModel } from '../../../../shared/rf/line.ts';
+import { cascadeLines, transformLine } from '../../../../shared/rf/line.ts';
 import { lNetworkSolutions } from '../../../../shared/rf/match.ts';
 import { mismatch, type MismatchInput } from '../../../../shared/rf/mismatch.ts';
 import { referReading } from '../../../../shared/rf/refer.ts';
 import { reflectionReport, reflectionReportFromGamma } from '../../../../shared/rf/reflection.ts';
 import {
+  LineAnswerSchema,
   LineRequestSchema,
-  LineResultSchema,
   MatchRequestSchema,
   MatchResultSchema,
   MismatchRequestSchema,
@@ -18,42 +15,12 @@ import {
   ReferResultSchema,
   ReflectionRequestSchema,
   ReflectionResultSchema,
-  type LineSpec,
 } from '../../../../shared/schemas/calc.ts';
 import { toComplex } from '../../../../shared/schemas/common.ts';
 import { ApiError } from '../../../http/problem.ts';
+import { lineModelsOf, matchedLossDbOf, sectionMatchedLossDb, type CalculationEnv } from './line-models.ts';
 
-/** Where cable ids are looked up: the built-in catalog now, account-defined cables later. */
-export interface CalculationEnv {
-  findCable: (id: string) => CableType | undefined;
-}
-
-export const catalogOnly: CalculationEnv = { findCable };
-
-/** Turns any of the three line descriptions into the model the domain library transforms through. */
-export function resolveLine(spec: LineSpec, frequencyHz: number, env: CalculationEnv, field = 'line'): LineModel {
-  const model = lineModelOf(spec, frequencyHz, env, field);
-  if (spec.maxVoltageRmsV !== undefined) model.maxVoltageRmsV = spec.maxVoltageRmsV;
-  return model;
-}
-
-function lineModelOf(spec: LineSpec, frequencyHz: number, env: CalculationEnv, field: string): LineModel {
-  const lengthM = spec.lengthM ?? (spec.lengthFt ?? 0) * M_PER_FT;
-  if (spec.cableId !== undefined) {
-    const cable = env.findCable(spec.cableId);
-    if (!cable) throw new RfInputError(`${field}.cableId`, `unknown cable '${spec.cableId}'; GET /api/v1/cables lists the available ids`);
-    return lineFromCable(cable, lengthM, frequencyHz);
-  }
-  if (spec.rlgc !== undefined) return lineFromRlgc(spec.rlgc, lengthM, frequencyHz);
-  const lossDbPer100m = spec.lossDbPer100m ?? (spec.lossDbPer100ft ?? 0) / M_PER_FT;
-  // The schema guarantees impedanceOhm and velocityFactor for this form.
-  return lineFromLossSpec({ impedanceOhm: toComplex(spec.impedanceOhm!), velocityFactor: spec.velocityFactor!, lossDbPer100m, lengthM }, frequencyHz);
-}
-
-/** Matched loss of a line model: 20·log10(e)·α·l. */
-export function matchedLossDbOf(line: LineModel): number {
-  return DB_PER_NEPER * line.propagationPerM.re * line.lengthM;
-}
+export { catalogOnly, matchedLossDbOf, resolveLine, type CalculationEnv } from './line-models.ts';
 
 /** Refuses to send a number that overflowed: JSON would silently turn it into null. */
 export function assertFinite<T>(value: T): T {
@@ -109,15 +76,24 @@ export const CALCULATIONS = {
   }),
   line: calculation({
     request: LineRequestSchema,
-    result: LineResultSchema,
-    run: (input, env) => transformLine(resolveLine(input.line, input.frequencyHz, env), toComplex(input.loadOhm), input.frequencyHz, input.powerW),
+    result: LineAnswerSchema,
+    run: (input, env) => {
+      const models = lineModelsOf(input.line, input.frequencyHz, env);
+      const load = toComplex(input.loadOhm);
+      return models.length === 1 && !Array.isArray(input.line) ? transformLine(models[0]!, load, input.frequencyHz, input.powerW) : cascadeLines(models, load, input.frequencyHz, input.powerW);
+    },
   }),
   refer: calculation({
     request: ReferRequestSchema,
     result: ReferResultSchema,
     run: (input, env) => {
-      const matchedLossDb = input.matchedLossDb ?? matchedLossDbOf(resolveLine(input.line!, input.frequencyHz!, env));
-      return referReading({ matchedLossDb, direction: input.direction, reading: definedOnly(input.reading) as Parameters<typeof referReading>[0]['reading'] });
+      const reading = definedOnly(input.reading) as Parameters<typeof referReading>[0]['reading'];
+      if (input.matchedLossDb !== undefined) return referReading({ matchedLossDb: input.matchedLossDb, direction: input.direction, reading });
+      const models = lineModelsOf(input.line!, input.frequencyHz!, env);
+      if (!Array.isArray(input.line)) return referReading({ matchedLossDb: matchedLossDbOf(models[0]!), direction: input.direction, reading });
+      const sectionsMatchedLossDb = models.map(sectionMatchedLossDb);
+      const matchedLossDb = sectionsMatchedLossDb.reduce((a, b) => a + b, 0);
+      return { ...referReading({ matchedLossDb, direction: input.direction, reading }), sectionsMatchedLossDb };
     },
   }),
   match: calculation({

@@ -1,0 +1,77 @@
+import type { Complex } from '../../../../shared/rf/complex.ts';
+import { findCable, type CableType } from '../../../../shared/rf/cables.ts';
+import { DB_PER_NEPER, M_PER_FT } from '../../../../shared/rf/constants.ts';
+import { RfInputError } from '../../../../shared/rf/errors.ts';
+import { attenuatorSection, lineFromCable, lineFromLossSpec, lineFromRlgc, type LineModel } from '../../../../shared/rf/line.ts';
+import { isConnectorSection, type FeedlineSection, type LineSpec } from '../../../../shared/schemas/calc.ts';
+import { toComplex } from '../../../../shared/schemas/common.ts';
+
+// Line descriptions of requests (one LineSpec, or sections) turned into the models shared/rf transforms
+// through; used by the single calculations, batch, feed lines, sweeps and the demo seed.
+
+/** Where cable ids are looked up: the built-in catalog now, account-defined cables later. */
+export interface CalculationEnv {
+  findCable: (id: string) => CableType | undefined;
+}
+
+export const catalogOnly: CalculationEnv = { findCable };
+
+/** Turns any of the three line descriptions into the model the domain library transforms through. */
+export function resolveLine(spec: LineSpec, frequencyHz: number, env: CalculationEnv, field = 'line'): LineModel {
+  const model = lineModelOf(spec, frequencyHz, env, field);
+  if (spec.maxVoltageRmsV !== undefined) model.maxVoltageRmsV = spec.maxVoltageRmsV;
+  return model;
+}
+
+function lineModelOf(spec: LineSpec, frequencyHz: number, env: CalculationEnv, field: string): LineModel {
+  const lengthM = spec.lengthM ?? (spec.lengthFt ?? 0) * M_PER_FT;
+  if (spec.cableId !== undefined) {
+    const cable = env.findCable(spec.cableId);
+    if (!cable) throw new RfInputError(`${field}.cableId`, `unknown cable '${spec.cableId}'; GET /api/v1/cables lists the available ids`);
+    return lineFromCable(cable, lengthM, frequencyHz);
+  }
+  if (spec.rlgc !== undefined) return lineFromRlgc(spec.rlgc, lengthM, frequencyHz);
+  const lossDbPer100m = spec.lossDbPer100m ?? (spec.lossDbPer100ft ?? 0) / M_PER_FT;
+  // The schema guarantees impedanceOhm and velocityFactor for this form.
+  return lineFromLossSpec({ impedanceOhm: toComplex(spec.impedanceOhm!), velocityFactor: spec.velocityFactor!, lossDbPer100m, lengthM }, frequencyHz);
+}
+
+/** Matched loss of a line model: 20·log10(e)·α·l. */
+export function matchedLossDbOf(line: LineModel): number {
+  return DB_PER_NEPER * line.propagationPerM.re * line.lengthM;
+}
+
+function lineSpecOf(section: FeedlineSection): LineSpec {
+  const { label: _label, insertionLossDb: _loss, ...spec } = section;
+  return spec as LineSpec;
+}
+
+/**
+ * The sections of a feed line as line models at one frequency, from the transmitter end. A connector
+ * is a matched fixed loss (attenuatorSection) against its own `impedanceOhm`, or else against the Z0
+ * of the nearest cable section (towards the antenna first), since a connector is made for the line it joins.
+ * @example sectionModels([{ cableId: 'rg-213', lengthM: 28 }, { insertionLossDb: 0.1, label: 'N barrel' }], 7.1e6, catalogOnly)
+ */
+export function sectionModels(sections: readonly FeedlineSection[], frequencyHz: number, env: CalculationEnv, field = 'sections'): LineModel[] {
+  const models: (LineModel | undefined)[] = sections.map((s, i) => (isConnectorSection(s) ? undefined : resolveLine(lineSpecOf(s), frequencyHz, env, `${field}.${i}`)));
+  const nearestZ0 = (i: number): Complex => {
+    for (let k = i + 1; k < models.length; k++) if (models[k]) return models[k]!.characteristicOhm;
+    for (let k = i - 1; k >= 0; k--) if (models[k]) return models[k]!.characteristicOhm;
+    throw new RfInputError(field, 'A feed line needs at least one cable section besides its connectors.');
+  };
+  return sections.map((s, i) => {
+    if (!isConnectorSection(s)) return models[i]!;
+    const z0 = s.impedanceOhm !== undefined ? toComplex(s.impedanceOhm) : nearestZ0(i);
+    return { ...attenuatorSection(s.insertionLossDb, z0, `${field}.${i}`), label: s.label, maxVoltageRmsV: s.maxVoltageRmsV };
+  });
+}
+
+/** Matched loss of one section: 20·log10(e)·α·l plus any lumped loss. */
+export function sectionMatchedLossDb(model: LineModel): number {
+  return DB_PER_NEPER * model.propagationPerM.re * model.lengthM + (model.fixedLossDb ?? 0);
+}
+
+/** The models of a request's `line`: one for a LineSpec, one per section for sections (errors name `line.2.cableId`). */
+export function lineModelsOf(line: LineSpec | readonly FeedlineSection[], frequencyHz: number, env: CalculationEnv, field = 'line'): LineModel[] {
+  return Array.isArray(line) ? sectionModels(line, frequencyHz, env, field) : [resolveLine(line as LineSpec, frequencyHz, env, field)];
+}
