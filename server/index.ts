@@ -72,7 +72,7 @@ function startPruning(database: Database, logger: Logger): NodeJS.Timeout {
   // Ended rate-limit windows and old lease bookkeeping are swept every 15 minutes; a failure only means a bigger sweep next time.
   return setInterval(() => {
     pruneRateLimitHits(database.pool).catch((err: unknown) => logger.warn({ err }, 'could not prune rate-limit windows'));
-    pruneQuotaBookkeeping(database.db).catch((err: unknown) => logger.warn({ err }, 'could not prune quota lease bookkeeping'));
+    pruneQuotaBookkeeping(database.pool).catch((err: unknown) => logger.warn({ err }, 'could not prune quota lease bookkeeping'));
   }, 15 * 60 * 1000).unref();
 }
 

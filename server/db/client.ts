@@ -41,3 +41,22 @@ export function openDatabase(url: string, options: DatabaseOptions = {}): Databa
   const db = drizzle({ client: pool, schema });
   return { db, pool, close: () => pool.end() };
 }
+
+/**
+ * Runs work on one connection of the pool with no statement timeout: maintenance that may rightly
+ * take longer than a request should (migrations waiting for another process, pruning a large
+ * backlog). The connection goes back to the pool with its own timeout restored.
+ */
+export async function withoutStatementTimeout<T>(pool: pg.Pool, work: (client: pg.PoolClient) => Promise<T>): Promise<T> {
+  const client = await pool.connect();
+  try {
+    await client.query('set statement_timeout = 0');
+    try {
+      return await work(client);
+    } finally {
+      await client.query('reset statement_timeout');
+    }
+  } finally {
+    client.release();
+  }
+}

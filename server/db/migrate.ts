@@ -3,6 +3,7 @@ import { fileURLToPath } from 'node:url';
 import type pg from 'pg';
 import { drizzle } from 'drizzle-orm/node-postgres';
 import { migrate } from 'drizzle-orm/node-postgres/migrator';
+import { withoutStatementTimeout } from './client.ts';
 
 export const MIGRATIONS_FOLDER = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../../drizzle');
 
@@ -11,23 +12,14 @@ const MIGRATION_LOCK_KEY = 7_340_021;
 
 /** Applies the committed migrations in `drizzle/`; idempotent and safe with several processes at once. */
 export async function migrateDatabase(pool: pg.Pool): Promise<void> {
-  // The lock and the migrator must share one connection, so take a dedicated client from the pool.
-  const client = await pool.connect();
-  try {
-    // Waiting for another process's migration and rewriting a big table may both take longer than
-    // the serving pool's statement timeout; this connection goes back to the pool with it restored.
-    await client.query('set statement_timeout = 0');
+  // The lock and the migrator must share one connection. Waiting for another process's migration and
+  // rewriting a big table may both take longer than the serving pool's statement timeout.
+  await withoutStatementTimeout(pool, async (client) => {
+    await client.query('select pg_advisory_lock($1)', [MIGRATION_LOCK_KEY]);
     try {
-      await client.query('select pg_advisory_lock($1)', [MIGRATION_LOCK_KEY]);
-      try {
-        await migrate(drizzle({ client }), { migrationsFolder: MIGRATIONS_FOLDER });
-      } finally {
-        await client.query('select pg_advisory_unlock($1)', [MIGRATION_LOCK_KEY]);
-      }
+      await migrate(drizzle({ client }), { migrationsFolder: MIGRATIONS_FOLDER });
     } finally {
-      await client.query('reset statement_timeout');
+      await client.query('select pg_advisory_unlock($1)', [MIGRATION_LOCK_KEY]);
     }
-  } finally {
-    client.release();
-  }
+  });
 }

@@ -33,7 +33,8 @@ export function expandUnions(error: z.ZodError): z.ZodError {
 /** Converts a zod failure into the ApiError the error middleware answers with. */
 export function apiErrorFromZod(zodError: z.ZodError, where: 'body' | 'query' | 'params' = 'body'): ApiError {
   const error = expandUnions(zodError);
-  const malformed = error.issues.some((i) => MALFORMED_CODES.has(i.code));
+  // A path parameter out of its range (an id too long) is a malformed address, not an uncomputable value.
+  const malformed = where === 'params' || error.issues.some((i) => MALFORMED_CODES.has(i.code));
   const errors = fieldIssues(error);
   const detail = errors.map((e) => (e.field ? `${e.field}: ${e.message}` : e.message)).join('; ');
   const prefix = where === 'body' ? '' : `${where}: `;

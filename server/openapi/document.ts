@@ -9,29 +9,35 @@ type Document = ReturnType<OpenApiGeneratorV31['generateDocument']>;
 let cached: Document | undefined;
 
 const PROBLEM = { 'application/problem+json': { schema: { $ref: '#/components/schemas/Problem' } } };
-const VALIDATION_ANSWERS = {
-  '400': 'The request is malformed or fails validation (field list in `errors`).',
-  '422': 'Well-formed input that cannot be computed or stored (the field and the reason are named).',
-} as const;
-const JSON_BODY_ANSWERS = {
+const MALFORMED = { '400': 'The request is malformed or fails validation (field list in `errors`).' } as const;
+const UNCOMPUTABLE = { '422': 'Well-formed input that cannot be computed or stored (the field and the reason are named).' } as const;
+const WITH_BODY = {
   '413': 'The body exceeds the size limit.',
-  '415': 'The body is not JSON (send Content-Type: application/json).',
+  '415': 'The body is not in a media type this operation takes (see its request body).',
 } as const;
+const DATABASE = { '503': 'The database is unreachable or too slow to answer; retry after `Retry-After` seconds.' } as const;
 
 /**
- * Every route validates its parameters and body with zod (server/http/validate.ts), so each can answer
- * 400 and 422, and 413 and 415 when it takes JSON; the routes list what is particular to them and this adds
- * the rest, so the document never leaves out an answer the code gives.
+ * Every route validates its parameters, query and body with zod (server/http/validate.ts), so each
+ * taking any can answer 400; a query or body out of range is 422 (a path parameter never is: see
+ * apiErrorFromZod); a body can be too large or of the wrong type; and every API call may meet a
+ * database that is down or too slow (503). The routes list what is particular to them and this
+ * adds the rest, so the document does not leave out an answer the code gives.
  */
-function withValidationAnswers(doc: Document): Document {
-  for (const item of Object.values(doc.paths ?? {})) {
+function withCommonAnswers(doc: Document): Document {
+  for (const [path, item] of Object.entries(doc.paths ?? {})) {
     for (const method of ['get', 'put', 'post', 'patch', 'delete'] as const) {
       const op = item?.[method];
       if (!op) continue;
-      const body = op.requestBody && 'content' in op.requestBody ? op.requestBody.content : undefined;
-      const takesInput = body !== undefined || (op.parameters ?? []).some((p) => 'in' in p && (p.in === 'query' || p.in === 'path'));
-      if (!takesInput) continue;
-      const answers: Record<string, string> = { ...VALIDATION_ANSWERS, ...(body?.['application/json'] ? JSON_BODY_ANSWERS : {}) };
+      const params = (op.parameters ?? []).filter((p) => 'in' in p);
+      const hasBody = op.requestBody !== undefined && 'content' in op.requestBody;
+      const hasQuery = params.some((p) => 'in' in p && p.in === 'query');
+      const answers: Record<string, string> = {
+        ...(hasBody || params.length > 0 ? MALFORMED : {}),
+        ...(hasBody || hasQuery ? UNCOMPUTABLE : {}),
+        ...(hasBody ? WITH_BODY : {}),
+        ...(path.startsWith('/api/v1/') && path !== '/api/v1/openapi.json' ? DATABASE : {}),
+      };
       op.responses ??= {};
       for (const [status, description] of Object.entries(answers)) op.responses[status] ??= { description, content: PROBLEM };
     }
@@ -41,7 +47,7 @@ function withValidationAnswers(doc: Document): Document {
 
 /** The OpenAPI 3.1 document, generated from the same zod schemas that validate requests. */
 export function openApiDocument() {
-  cached ??= withValidationAnswers(new OpenApiGeneratorV31(registry.definitions).generateDocument({
+  cached ??= withCommonAnswers(new OpenApiGeneratorV31(registry.definitions).generateDocument({
     openapi: '3.1.0',
     info: {
       title: 'Gammaline API',

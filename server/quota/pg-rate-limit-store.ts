@@ -1,4 +1,5 @@
 import type { ClientRateLimitInfo, Options, Store } from 'express-rate-limit';
+import { withoutStatementTimeout } from '../db/client.ts';
 import type pg from 'pg';
 
 /**
@@ -100,6 +101,7 @@ export class PgRateLimitStore implements Store {
  * (addresses typed at sign-in, client addresses), so without pruning the table would only grow.
  */
 export async function pruneRateLimitHits(pool: pg.Pool): Promise<number> {
-  const result = await pool.query("delete from rate_limit_hits where reset_at < now() - interval '1 hour'");
+  // A backlog (after a flood of sign-in attempts) may take longer to delete than a request may run.
+  const result = await withoutStatementTimeout(pool, (client) => client.query("delete from rate_limit_hits where reset_at < now() - interval '1 hour'"));
   return result.rowCount ?? 0;
 }

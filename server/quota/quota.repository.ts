@@ -1,5 +1,6 @@
 import { and, eq, isNull, sql } from 'drizzle-orm';
-import type { Db } from '../db/client.ts';
+import type pg from 'pg';
+import { withoutStatementTimeout, type Db } from '../db/client.ts';
 import { keyQuotaDays } from '../db/schema.ts';
 
 export interface KeySpend {
@@ -198,9 +199,12 @@ export async function countOtherHolders(db: Db, h: { instanceId: string; keyId: 
  * Bookkeeping of quota leases that nobody needs any more: lease rows of past days (a process that
  * died keeps its row) and the flush numbers of processes not heard from for two days.
  */
-export async function pruneQuotaBookkeeping(db: Db): Promise<void> {
-  await db.execute(sql`delete from quota_leases where day < current_date - 1`);
-  await db.execute(sql`delete from usage_flushes where updated_at < now() - interval '2 days'`);
+export async function pruneQuotaBookkeeping(pool: pg.Pool): Promise<void> {
+  // Without the serving pool's statement timeout: a large backlog must not be cancelled and retried for ever.
+  await withoutStatementTimeout(pool, async (client) => {
+    await client.query('delete from quota_leases where day < current_date - 1');
+    await client.query("delete from usage_flushes where updated_at < now() - interval '2 days'");
+  });
 }
 
 /** Gives unspent reserved units (and hits of a still-current window) back and drops the lease row (once: see drizzle/0005). */

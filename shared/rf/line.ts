@@ -484,7 +484,8 @@ export function transformLine(line: LineModel, loadOhm: Complex, frequencyHz: nu
 /**
  * A line of several sections, listed from the source: each section's load is the next section's
  * input impedance; totals are for the whole line (total loss = 10·log10(Pin/Pload) end to end),
- * peak positions are measured from the input of the first section.
+ * peak positions are measured from the input of the first section. Errors name `${field}.k`, the
+ * section's place in the request.
  * @example cascadeLines([attenuatorSection(0.1, { re: 50, im: 0 }), lineFromCable(findCable('rg-8x')!, 20, 7.1e6)], { re: 75, im: 0 }, 7.1e6, 100)
  */
 export function cascadeLines(
@@ -492,16 +493,17 @@ export function cascadeLines(
   loadOhm: Complex,
   frequencyHz: number,
   powerW?: number,
+  field = 'sections',
 ): LineResult & { sections: LineResult[] } {
   requireFrequency(frequencyHz);
   if (!Array.isArray(sectionsFromSource) || sectionsFromSource.length === 0) {
-    throw new RfInputError('sections', 'Give at least one line section, listed from the source end.');
+    throw new RfInputError(field, 'Give at least one line section, listed from the source end.');
   }
   const n = sectionsFromSource.length;
   const solutions: SectionSolution[] = new Array<SectionSolution>(n);
   let load = loadOhm;
   for (let k = n - 1; k >= 0; k--) {
-    const prefix = `sections.${k}`;
+    const prefix = `${field}.${k}`;
     // Only the real load can be a bad input; trouble at an inner junction belongs to the section it feeds.
     const sol = solveSection(sectionsFromSource[k] as LineModel, load, prefix, k === n - 1 ? 'loadOhm' : prefix);
     solutions[k] = sol;

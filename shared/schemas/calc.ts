@@ -141,7 +141,7 @@ export const LineSpecSchema = z
       .number()
       .positive()
       .optional()
-      .meta({ description: 'Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog cable brings its own rating; this replaces it (a connector rated lower than the cable, for example).', example: 500 }),
+      .meta({ description: 'Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog or account cable brings its own rating; the lower of the two is checked (a connector rated below the cable, for example).', example: 500 }),
   })
   .superRefine((v, ctx) => {
     const lengths = present(v, ['lengthM', 'lengthFt']);
@@ -223,7 +223,7 @@ export const LineSectionsSchema = z
   .min(1)
   .max(MAX_FEEDLINE_SECTIONS)
   .superRefine((sections, ctx) => {
-    if (sections.every((s) => s.insertionLossDb !== undefined)) {
+    if (sections.length > 0 && sections.every((s) => s.insertionLossDb !== undefined)) {
       ctx.addIssue({ code: 'custom', path: [], message: 'a feed line needs at least one cable section besides its connectors' });
     }
   })
@@ -231,7 +231,9 @@ export const LineSectionsSchema = z
 
 /** A line as one `LineSpec`, or as sections from the transmitter end (cables and connectors). */
 export const LineOrSectionsSchema = z
-  .union([LineSpecSchema, LineSectionsSchema])
+  .union([LineSpecSchema, LineSectionsSchema], {
+    error: 'describe the line as one object ({ cableId, lengthM }, { impedanceOhm, velocityFactor, lossDbPer100m, lengthM } or { rlgc, lengthM }) or as an array of sections from the transmitter end',
+  })
   .meta({ description: 'One `LineSpec`, or an array of `FeedlineSection`s from the transmitter end (cables of different kinds joined by connectors), as in a saved feed line.' });
 
 export const LineRequestSchema = z
@@ -264,17 +266,19 @@ export const LineResultSchema = z
       .optional()
       .meta({ description: 'RMS voltage and current maxima on the line and their distance from the input.' }),
     cautions: z.array(z.string()).meta({ description: 'Safety cautions, e.g. a voltage above the cable\'s rating. Show them to the user.' }),
+    // A getter, because the sections are LineResults themselves (zod's recursive-object form).
+    get sections() {
+      return z
+        .array(LineResultSchema)
+        .optional()
+        .meta({ description: 'Only when `line` was given as sections: each section on its own, from the transmitter end; a section\'s load is the next one\'s input.' });
+    },
   })
   .meta({ id: 'LineResult' });
 
 export const FeedlineLineResultSchema = LineResultSchema.extend({
   sections: z.array(LineResultSchema).meta({ description: 'Each section on its own, from the transmitter end; a section\'s load is the next one\'s input.' }),
 }).meta({ id: 'FeedlineLineResult', description: 'The whole feed line (totals end to end) and each section.' });
-
-/** What POST /line answers: a LineResult, with `sections` when the line was given as sections. */
-export const LineAnswerSchema = z
-  .union([FeedlineLineResultSchema, LineResultSchema])
-  .meta({ description: 'A `LineResult`; when `line` was given as sections, a `FeedlineLineResult` (the totals end to end, and `sections`).' });
 
 // ---------------------------------------------------------------- refer
 

@@ -1,7 +1,6 @@
 import { z } from 'zod';
 import { ComplexSchema, ImpedanceSchema, ReflectionDetailSchema, ReturnLossOutput, SwrOutput } from './common.ts';
-import { LineSpecSchema } from './calc.ts';
-import { FeedlineSectionSchema, MAX_FEEDLINE_SECTIONS } from './feedlines.ts';
+import { FeedlineSectionSchema, LineOrSectionsSchema } from './calc.ts';
 
 /** Most points a JSON upload may carry (the body limit allows about this many); larger sweeps go up as files. */
 export const MAX_JSON_SWEEP_POINTS = 20_000;
@@ -29,9 +28,7 @@ export const SweepMaskSchema = z
   })
   .meta({ id: 'SweepMask', description: 'An acceptance figure over a frequency range: `{ maxSwr }` or `{ minReturnLossDb }`, optionally with `startHz`/`stopHz`.', example: { maxSwr: 1.5, startHz: 7_000_000, stopHz: 7_200_000 } });
 
-export const SweepLineSchema = z
-  .union([LineSpecSchema, z.array(FeedlineSectionSchema).min(1).max(MAX_FEEDLINE_SECTIONS)])
-  .meta({ id: 'SweepLine', description: 'One `LineSpec`, or feed line sections from the transmitter end (cables and connectors, as in a saved feed line).', example: { cableId: 'rg-213', lengthM: 28 } });
+export const SweepLineSchema = LineOrSectionsSchema.meta({ id: 'SweepLine', description: 'One `LineSpec`, or feed line sections from the transmitter end (cables and connectors, as in a saved feed line).', example: { cableId: 'rg-213', lengthM: 28 } });
 
 /** Analysis parameters, the same in a JSON upload and as multipart form fields. */
 export const sweepOptionFields = {

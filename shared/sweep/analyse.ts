@@ -179,7 +179,7 @@ export function analyseSweep(points: readonly SweepPointInput[], options: Analys
         // Not reachable with the scaling above; a stored NaN would break every later export of the sweep.
         throw new RfInputError(`points.${i}.loadOhm`, 'The reflection coefficient of this load cannot be computed in double precision.');
       }
-      reactance[i] = zi;
+      reactance[i] = z.im; // unscaled: resonances interpolate between neighbouring points
     }
     const swr = m < 1 ? (1 + m) / (1 - m) : null;
     freq[i] = f;

@@ -126,7 +126,7 @@ describe('POST /api/v1/line', () => {
     expect(Array.isArray(res.body.cautions)).toBe(true);
   });
 
-  it('checks the computed voltage against a rating given with any line form, and a given rating replaces the catalog\'s', async () => {
+  it('checks the computed voltage against a rating given with any line form, and the lower of a given and a catalog rating', async () => {
     // 1,500 W into a 2,000 Ω load at the end of a 50 Ω line: a high-SWR case well above usual connector ratings.
     const spec = { impedanceOhm: 50, velocityFactor: 0.66, lossDbPer100m: 2.5, lengthM: 30 };
     const free = await post('/line', { frequencyHz: 7.1e6, line: spec, loadOhm: 2000, powerW: 1500 }).expect(200);
@@ -146,7 +146,19 @@ describe('POST /api/v1/line', () => {
     expect(catalog.body.cautions).toEqual([]);
     const connector = await post('/line', { frequencyHz: 7.1e6, line: { cableId: 'rg-213', lengthM: 30, maxVoltageRmsV: 300 }, loadOhm: 2000, powerW: 1500 }).expect(200);
     expect(connector.body.cautions).toHaveLength(1);
+    // A given rating never raises a cable's own: RG-8X is rated 600 V RMS in the catalog.
+    const raised = await post('/line', { frequencyHz: 7.1e6, line: { cableId: 'rg-8x', lengthM: 30, maxVoltageRmsV: 1e9 }, loadOhm: 2000, powerW: 1500 }).expect(200);
+    expect(raised.body.peaks.maxVoltageV).toBeGreaterThan(600);
+    expect(raised.body.cautions).toHaveLength(1);
+    expect(raised.body.cautions[0]).toContain('rating of 600 V RMS');
     await post('/line', { frequencyHz: 7.1e6, line: { ...spec, maxVoltageRmsV: 0 }, loadOhm: 2000 }).expect(422);
+  });
+
+  it('says how to describe a line when it is neither an object nor sections, and only "too small" for no sections', async () => {
+    const text = await post('/line', { frequencyHz: 7.1e6, line: 'rg-213', loadOhm: 50 }).expect(400);
+    expect(text.body.errors).toEqual([{ field: 'line', message: expect.stringMatching(/^describe the line as one object .* or as an array of sections/) }]);
+    const none = await post('/line', { frequencyHz: 7.1e6, line: [], loadOhm: 50 }).expect(422);
+    expect(none.body.errors).toEqual([{ field: 'line', message: expect.stringMatching(/>=1/) }]);
   });
 
   describe('refuses impossible lines with a 422 naming the field', () => {

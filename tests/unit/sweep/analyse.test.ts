@@ -84,6 +84,19 @@ describe('loads near the largest double', () => {
     }
     expect(summary.pointCount).toBe(2);
   });
+
+  it('finds a resonance between a huge and an ordinary reactance where linear interpolation puts it', () => {
+    // X goes from −1e151 to +10 Ω: the zero crossing is 10/(1e151 + 10) of the way, i.e. at 8 MHz to
+    // double precision (linear interpolation by hand); a scaled reactance would put it near 7.09 MHz.
+    const { summary } = analyseSweep(
+      [
+        { frequencyHz: 7e6, loadOhm: { re: 10, im: -1e151 } },
+        { frequencyHz: 8e6, loadOhm: { re: 10, im: 10 } },
+      ],
+      { referenceOhm: 50 },
+    );
+    expect(summary.resonancesHz).toEqual([8e6]);
+  });
 });
 
 describe('unbounded SWR is null', () => {

@@ -160,7 +160,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -183,6 +183,15 @@ export interface paths {
                     headers: {
                         /** @description Seconds to wait before trying again. */
                         "Retry-After": string;
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
                         [name: string]: unknown;
                     };
                     content: {
@@ -272,7 +281,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -295,6 +304,15 @@ export interface paths {
                     headers: {
                         /** @description Seconds to wait before trying again. */
                         "Retry-After": string;
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
                         [name: string]: unknown;
                     };
                     content: {
@@ -345,7 +363,7 @@ export interface paths {
                         [name: string]: unknown;
                     };
                     content: {
-                        "application/json": components["schemas"]["FeedlineLineResult"] | components["schemas"]["LineResult"];
+                        "application/json": components["schemas"]["LineResult"];
                     };
                 };
                 /** @description The request is malformed or fails validation (field list in `errors`). */
@@ -384,7 +402,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -407,6 +425,15 @@ export interface paths {
                     headers: {
                         /** @description Seconds to wait before trying again. */
                         "Retry-After": string;
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
                         [name: string]: unknown;
                     };
                     content: {
@@ -496,7 +523,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -519,6 +546,15 @@ export interface paths {
                     headers: {
                         /** @description Seconds to wait before trying again. */
                         "Retry-After": string;
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
                         [name: string]: unknown;
                     };
                     content: {
@@ -608,7 +644,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -631,6 +667,15 @@ export interface paths {
                     headers: {
                         /** @description Seconds to wait before trying again. */
                         "Retry-After": string;
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
                         [name: string]: unknown;
                     };
                     content: {
@@ -753,6 +798,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         delete?: never;
@@ -792,6 +846,15 @@ export interface paths {
                 };
                 /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
                 401: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -873,7 +936,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -884,6 +947,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -954,8 +1026,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1034,8 +1106,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1120,7 +1192,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -1131,6 +1203,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1246,6 +1327,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         put?: never;
@@ -1284,6 +1374,15 @@ export interface paths {
                 };
                 /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
                 401: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1356,7 +1455,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -1367,6 +1466,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1437,8 +1545,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1508,8 +1616,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1594,7 +1702,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -1605,6 +1713,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1702,7 +1819,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -1725,6 +1842,15 @@ export interface paths {
                     headers: {
                         /** @description Seconds to wait before trying again. */
                         "Retry-After": string;
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
                         [name: string]: unknown;
                     };
                     content: {
@@ -1825,7 +1951,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -1848,6 +1974,15 @@ export interface paths {
                     headers: {
                         /** @description Seconds to wait before trying again. */
                         "Retry-After": string;
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
                         [name: string]: unknown;
                     };
                     content: {
@@ -1893,6 +2028,15 @@ export interface paths {
                 };
                 /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
                 401: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -1966,7 +2110,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -1989,6 +2133,15 @@ export interface paths {
                     headers: {
                         /** @description Seconds to wait before trying again. */
                         "Retry-After": string;
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
                         [name: string]: unknown;
                     };
                     content: {
@@ -2058,8 +2211,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2126,8 +2279,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2200,8 +2353,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2266,6 +2419,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         put?: never;
@@ -2322,7 +2484,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -2345,6 +2507,15 @@ export interface paths {
                     headers: {
                         /** @description Seconds to wait before trying again. */
                         "Retry-After": string;
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
                         [name: string]: unknown;
                     };
                     content: {
@@ -2384,6 +2555,15 @@ export interface paths {
                 };
                 /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
                 403: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2451,7 +2631,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -2474,6 +2654,15 @@ export interface paths {
                     headers: {
                         /** @description Seconds to wait before trying again. */
                         "Retry-After": string;
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
                         [name: string]: unknown;
                     };
                     content: {
@@ -2539,7 +2728,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -2550,6 +2739,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2626,6 +2824,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2716,7 +2923,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -2727,6 +2934,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2806,8 +3022,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2879,8 +3095,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -2965,7 +3181,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -2976,6 +3192,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3061,6 +3286,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         put?: never;
@@ -3108,6 +3342,15 @@ export interface paths {
                 };
                 /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
                 403: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3220,7 +3463,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -3231,6 +3474,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3279,6 +3531,15 @@ export interface paths {
                 };
                 /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
                 403: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3360,7 +3621,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -3462,8 +3723,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3540,7 +3801,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -3551,6 +3812,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3594,6 +3864,15 @@ export interface paths {
                 };
                 /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
                 401: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3667,7 +3946,7 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description The body is not JSON (send Content-Type: application/json). */
+                /** @description The body is not in a media type this operation takes (see its request body). */
                 415: {
                     headers: {
                         [name: string]: unknown;
@@ -3678,6 +3957,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3748,6 +4036,15 @@ export interface paths {
                 };
                 /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
                 422: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -3843,6 +4140,15 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/problem+json": components["schemas"]["Problem"];
+                    };
+                };
             };
         };
         put?: never;
@@ -3920,8 +4226,8 @@ export interface paths {
                         "application/problem+json": components["schemas"]["Problem"];
                     };
                 };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
+                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+                503: {
                     headers: {
                         [name: string]: unknown;
                     };
@@ -4166,73 +4472,6 @@ export interface components {
              */
             referenceOhm?: number | components["schemas"]["Complex"];
         };
-        /** @description The whole feed line (totals end to end) and each section. */
-        FeedlineLineResult: {
-            /**
-             * @description Impedance seen at the line input.
-             * @example {
-             *       "re": 36.5,
-             *       "im": -12.2
-             *     }
-             */
-            inputOhm: {
-                /** @description Real part. */
-                re: number;
-                /** @description Imaginary part. */
-                im: number;
-            };
-            characteristicOhm: components["schemas"]["Complex"];
-            electricalLengthDeg: number;
-            lengthWavelengths: number;
-            /** @description Loss of the line when matched. */
-            matchedLossDb: number;
-            /** @description Loss with this load: 10·log10(Pin/Pload); `null` when no power reaches the load. */
-            totalLossDb: number | null;
-            /** @description Extra loss caused by the mismatch: total − matched; `null` when `totalLossDb` is. */
-            mismatchExtraLossDb: number | null;
-            atLoad: components["schemas"]["LineEnd"];
-            atInput: components["schemas"]["LineEnd"];
-            power?: {
-                inputW: number;
-                loadW: number;
-                lineDissipationW: number;
-            };
-            /** @description RMS voltage and current maxima on the line and their distance from the input. */
-            peaks?: {
-                maxVoltageV: number;
-                maxCurrentA: number;
-                maxVoltageAtM: number;
-                maxCurrentAtM: number;
-            };
-            /** @description Safety cautions, e.g. a voltage above the cable's rating. Show them to the user. */
-            cautions: string[];
-            /** @description Each section on its own, from the transmitter end; a section's load is the next one's input. */
-            sections: components["schemas"]["LineResult"][];
-        };
-        /** @description Mismatch at one end of the line, against the line's Z0. */
-        LineEnd: {
-            reflection: components["schemas"]["ReflectionDetail"];
-            /**
-             * @description Standing-wave ratio; `null` at total reflection (|Γ| = 1), where it is unbounded.
-             * @example 1.5
-             */
-            swr: number | null;
-            /**
-             * @description Return loss in dB; `null` for a perfect match (Γ = 0), where it is unbounded.
-             * @example 13.979400086720377
-             */
-            returnLossDb: number | null;
-            impedanceOhm: components["schemas"]["Complex"];
-        };
-        /** @description A reflection coefficient with its magnitude and angle. */
-        ReflectionDetail: {
-            re: number;
-            im: number;
-            /** @description |Γ|. */
-            magnitude: number;
-            /** @description Angle of Γ in degrees, (−180, 180]. */
-            angleDeg: number;
-        };
         LineResult: {
             /**
              * @description Impedance seen at the line input.
@@ -4272,6 +4511,32 @@ export interface components {
             };
             /** @description Safety cautions, e.g. a voltage above the cable's rating. Show them to the user. */
             cautions: string[];
+            /** @description Only when `line` was given as sections: each section on its own, from the transmitter end; a section's load is the next one's input. */
+            sections?: components["schemas"]["LineResult"][];
+        };
+        /** @description Mismatch at one end of the line, against the line's Z0. */
+        LineEnd: {
+            reflection: components["schemas"]["ReflectionDetail"];
+            /**
+             * @description Standing-wave ratio; `null` at total reflection (|Γ| = 1), where it is unbounded.
+             * @example 1.5
+             */
+            swr: number | null;
+            /**
+             * @description Return loss in dB; `null` for a perfect match (Γ = 0), where it is unbounded.
+             * @example 13.979400086720377
+             */
+            returnLossDb: number | null;
+            impedanceOhm: components["schemas"]["Complex"];
+        };
+        /** @description A reflection coefficient with its magnitude and angle. */
+        ReflectionDetail: {
+            re: number;
+            im: number;
+            /** @description |Γ|. */
+            magnitude: number;
+            /** @description Angle of Γ in degrees, (−180, 180]. */
+            angleDeg: number;
         };
         /**
          * @example {
@@ -4342,7 +4607,7 @@ export interface components {
             /** @description Physical length in feet. */
             lengthFt?: number;
             /**
-             * @description Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog cable brings its own rating; this replaces it (a connector rated lower than the cable, for example).
+             * @description Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog or account cable brings its own rating; the lower of the two is checked (a connector rated below the cable, for example).
              * @example 500
              */
             maxVoltageRmsV?: number;
@@ -4400,7 +4665,7 @@ export interface components {
             /** @description Physical length in feet. */
             lengthFt?: number;
             /**
-             * @description Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog cable brings its own rating; this replaces it (a connector rated lower than the cable, for example).
+             * @description Highest RMS voltage the line (or its connectors) is rated for, V. With `powerW`, a computed voltage above it adds a caution. A catalog or account cable brings its own rating; the lower of the two is checked (a connector rated below the cable, for example).
              * @example 500
              */
             maxVoltageRmsV?: number;
@@ -4619,7 +4884,7 @@ export interface components {
             /** @enum {boolean} */
             ok: true;
             /** @description The same body the single endpoint of `op` answers. */
-            output: components["schemas"]["MismatchResult"] | components["schemas"]["ReflectionResult"] | components["schemas"]["FeedlineLineResult"] | components["schemas"]["LineResult"] | components["schemas"]["ReferResult"] | components["schemas"]["MatchResult"];
+            output: components["schemas"]["MismatchResult"] | components["schemas"]["ReflectionResult"] | components["schemas"]["LineResult"] | components["schemas"]["ReferResult"] | components["schemas"]["MatchResult"];
         } | {
             /** @enum {boolean} */
             ok: false;
@@ -4645,7 +4910,7 @@ export interface components {
             /** @enum {boolean} */
             ok: true;
             /** @description The same body the single endpoint of `op` answers. */
-            output: components["schemas"]["MismatchResult"] | components["schemas"]["ReflectionResult"] | components["schemas"]["FeedlineLineResult"] | components["schemas"]["LineResult"] | components["schemas"]["ReferResult"] | components["schemas"]["MatchResult"];
+            output: components["schemas"]["MismatchResult"] | components["schemas"]["ReflectionResult"] | components["schemas"]["LineResult"] | components["schemas"]["ReferResult"] | components["schemas"]["MatchResult"];
         } | {
             line: number;
             /** @enum {boolean} */
@@ -4980,6 +5245,49 @@ export interface components {
             notes?: string;
             /** @description Replaces all sections. */
             sections?: components["schemas"]["FeedlineSection"][];
+        };
+        /** @description The whole feed line (totals end to end) and each section. */
+        FeedlineLineResult: {
+            /**
+             * @description Impedance seen at the line input.
+             * @example {
+             *       "re": 36.5,
+             *       "im": -12.2
+             *     }
+             */
+            inputOhm: {
+                /** @description Real part. */
+                re: number;
+                /** @description Imaginary part. */
+                im: number;
+            };
+            characteristicOhm: components["schemas"]["Complex"];
+            electricalLengthDeg: number;
+            lengthWavelengths: number;
+            /** @description Loss of the line when matched. */
+            matchedLossDb: number;
+            /** @description Loss with this load: 10·log10(Pin/Pload); `null` when no power reaches the load. */
+            totalLossDb: number | null;
+            /** @description Extra loss caused by the mismatch: total − matched; `null` when `totalLossDb` is. */
+            mismatchExtraLossDb: number | null;
+            atLoad: components["schemas"]["LineEnd"];
+            atInput: components["schemas"]["LineEnd"];
+            power?: {
+                inputW: number;
+                loadW: number;
+                lineDissipationW: number;
+            };
+            /** @description RMS voltage and current maxima on the line and their distance from the input. */
+            peaks?: {
+                maxVoltageV: number;
+                maxCurrentA: number;
+                maxVoltageAtM: number;
+                maxCurrentAtM: number;
+            };
+            /** @description Safety cautions, e.g. a voltage above the cable's rating. Show them to the user. */
+            cautions: string[];
+            /** @description Each section on its own, from the transmitter end; a section's load is the next one's input. */
+            sections: components["schemas"]["LineResult"][];
         };
         /**
          * @example {

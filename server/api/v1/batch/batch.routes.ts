@@ -1,7 +1,7 @@
 import express, { Router, type RequestHandler } from 'express';
 import { z } from '../../../zod.ts';
 import { BatchEnvelopeSchema, BatchItemSchema, BatchRequestSchema, MAX_BATCH_ITEMS } from '../../../../shared/schemas/batch.ts';
-import { LineAnswerSchema, MatchResultSchema, MismatchResultSchema, ReferResultSchema, ReflectionResultSchema } from '../../../../shared/schemas/calc.ts';
+import { LineResultSchema, MatchResultSchema, MismatchResultSchema, ReferResultSchema, ReflectionResultSchema } from '../../../../shared/schemas/calc.ts';
 import type { AppContext } from '../../../context.ts';
 import { callerOf, meterCalculation, requireCaller } from '../../../auth/caller.ts';
 import { meteredProblems, keyOrSession, rateLimitHeaders } from '../../../auth/openapi.ts';
@@ -28,7 +28,7 @@ const YIELD_EVERY = 1000;
 const PIECE_ITEMS = 64;
 
 const OutputSchema = z
-  .union([MismatchResultSchema, ReflectionResultSchema, LineAnswerSchema, ReferResultSchema, MatchResultSchema])
+  .union([MismatchResultSchema, ReflectionResultSchema, LineResultSchema, ReferResultSchema, MatchResultSchema])
   .meta({ description: 'The same body the single endpoint of `op` answers.' });
 
 const BatchResultItemSchema = z

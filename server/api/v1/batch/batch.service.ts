@@ -3,7 +3,8 @@ import { RfInputError } from '../../../../shared/rf/errors.ts';
 import { BATCH_OPERATIONS, type BatchOperation } from '../../../../shared/schemas/batch.ts';
 import { ApiError, type FieldIssue, type Problem } from '../../../http/problem.ts';
 import { apiErrorFromZod } from '../../../http/zod-issues.ts';
-import { assertFinite, CALCULATIONS, type CalculationEnv } from '../calc/operations.ts';
+import type { CalculationEnv } from '../calc/line-models.ts';
+import { assertFinite, CALCULATIONS } from '../calc/operations.ts';
 
 /** What one item gave: its output, or a problem shaped like the single endpoint's error response. */
 export type ItemOutcome = { ok: true; output: unknown } | { ok: false; problem: Problem };

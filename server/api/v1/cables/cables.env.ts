@@ -1,6 +1,6 @@
 import { CABLE_CATALOG, findCable } from '../../../../shared/rf/cables.ts';
 import type { Db } from '../../../db/client.ts';
-import { catalogOnly, type CalculationEnv } from '../calc/operations.ts';
+import { catalogOnly, type CalculationEnv } from '../calc/line-models.ts';
 import { findAccountCables } from './cables.repository.ts';
 
 const CATALOG_IDS = new Set(CABLE_CATALOG.map((c) => c.id));

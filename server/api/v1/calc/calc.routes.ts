@@ -4,7 +4,8 @@ import type { AppContext } from '../../../context.ts';
 import { validateBody } from '../../../http/validate.ts';
 import { calculationProblems, registry } from '../../../openapi/registry.ts';
 import { accountCableIdsIn, calculationEnvFor } from '../cables/cables.env.ts';
-import { assertFinite, CALCULATIONS, catalogOnly, type CalculationEnv, type CalculationName } from './operations.ts';
+import { catalogOnly, type CalculationEnv } from './line-models.ts';
+import { assertFinite, CALCULATIONS, type CalculationName } from './operations.ts';
 
 /** Authentication and metering for one endpoint, supplied by whoever mounts the router. */
 export type EndpointGuard = (endpoint: string, options: { metered: boolean }) => RequestHandler[];

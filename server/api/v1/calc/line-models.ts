@@ -19,7 +19,11 @@ export const catalogOnly: CalculationEnv = { findCable };
 /** Turns any of the three line descriptions into the model the domain library transforms through. */
 export function resolveLine(spec: LineSpec, frequencyHz: number, env: CalculationEnv, field = 'line'): LineModel {
   const model = lineModelOf(spec, frequencyHz, env, field);
-  if (spec.maxVoltageRmsV !== undefined) model.maxVoltageRmsV = spec.maxVoltageRmsV;
+  // A given rating can only lower a cable's own: it stands for the weakest part of the run.
+  if (spec.maxVoltageRmsV !== undefined) {
+    const own = model.maxVoltageRmsV;
+    model.maxVoltageRmsV = typeof own === 'number' ? Math.min(own, spec.maxVoltageRmsV) : spec.maxVoltageRmsV;
+  }
   return model;
 }
 
@@ -34,11 +38,6 @@ function lineModelOf(spec: LineSpec, frequencyHz: number, env: CalculationEnv, f
   const lossDbPer100m = spec.lossDbPer100m ?? (spec.lossDbPer100ft ?? 0) / M_PER_FT;
   // The schema guarantees impedanceOhm and velocityFactor for this form.
   return lineFromLossSpec({ impedanceOhm: toComplex(spec.impedanceOhm!), velocityFactor: spec.velocityFactor!, lossDbPer100m, lengthM }, frequencyHz);
-}
-
-/** Matched loss of a line model: 20·log10(e)·α·l. */
-export function matchedLossDbOf(line: LineModel): number {
-  return DB_PER_NEPER * line.propagationPerM.re * line.lengthM;
 }
 
 function lineSpecOf(section: FeedlineSection): LineSpec {

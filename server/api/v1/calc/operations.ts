@@ -5,7 +5,7 @@ import { mismatch, type MismatchInput } from '../../../../shared/rf/mismatch.ts'
 import { referReading } from '../../../../shared/rf/refer.ts';
 import { reflectionReport, reflectionReportFromGamma } from '../../../../shared/rf/reflection.ts';
 import {
-  LineAnswerSchema,
+  LineResultSchema,
   LineRequestSchema,
   MatchRequestSchema,
   MatchResultSchema,
@@ -18,9 +18,7 @@ import {
 } from '../../../../shared/schemas/calc.ts';
 import { toComplex } from '../../../../shared/schemas/common.ts';
 import { ApiError } from '../../../http/problem.ts';
-import { lineModelsOf, matchedLossDbOf, sectionMatchedLossDb, type CalculationEnv } from './line-models.ts';
-
-export { catalogOnly, matchedLossDbOf, resolveLine, type CalculationEnv } from './line-models.ts';
+import { lineModelsOf, sectionMatchedLossDb, type CalculationEnv } from './line-models.ts';
 
 /** Refuses to send a number that overflowed: JSON would silently turn it into null. */
 export function assertFinite<T>(value: T): T {
@@ -76,11 +74,11 @@ export const CALCULATIONS = {
   }),
   line: calculation({
     request: LineRequestSchema,
-    result: LineAnswerSchema,
+    result: LineResultSchema,
     run: (input, env) => {
       const models = lineModelsOf(input.line, input.frequencyHz, env);
       const load = toComplex(input.loadOhm);
-      return models.length === 1 && !Array.isArray(input.line) ? transformLine(models[0]!, load, input.frequencyHz, input.powerW) : cascadeLines(models, load, input.frequencyHz, input.powerW);
+      return !Array.isArray(input.line) ? transformLine(models[0]!, load, input.frequencyHz, input.powerW) : cascadeLines(models, load, input.frequencyHz, input.powerW, 'line');
     },
   }),
   refer: calculation({
@@ -90,7 +88,7 @@ export const CALCULATIONS = {
       const reading = definedOnly(input.reading) as Parameters<typeof referReading>[0]['reading'];
       if (input.matchedLossDb !== undefined) return referReading({ matchedLossDb: input.matchedLossDb, direction: input.direction, reading });
       const models = lineModelsOf(input.line!, input.frequencyHz!, env);
-      if (!Array.isArray(input.line)) return referReading({ matchedLossDb: matchedLossDbOf(models[0]!), direction: input.direction, reading });
+      if (!Array.isArray(input.line)) return referReading({ matchedLossDb: sectionMatchedLossDb(models[0]!), direction: input.direction, reading });
       const sectionsMatchedLossDb = models.map(sectionMatchedLossDb);
       const matchedLossDb = sectionsMatchedLossDb.reduce((a, b) => a + b, 0);
       return { ...referReading({ matchedLossDb, direction: input.direction, reading }), sectionsMatchedLossDb };

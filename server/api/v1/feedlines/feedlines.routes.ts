@@ -24,7 +24,8 @@ import { calculationProblems, problemResponses, registry, json } from '../../../
 import { assertFinite } from '../calc/operations.ts';
 import { calculationEnvFor, cableIdsIn } from '../cables/cables.env.ts';
 import { deleteFeedline, findFeedline, insertFeedline, listFeedlines, updateFeedline, type FeedlineRecord } from './feedlines.repository.ts';
-import { assertCablesKnown, feedlineLengthM, sectionMatchedLossDb, sectionModels } from './feedlines.service.ts';
+import { sectionMatchedLossDb, sectionModels } from '../calc/line-models.ts';
+import { assertCablesKnown, feedlineLengthM } from './feedlines.service.ts';
 
 const tags = ['Feed lines'];
 const params = { params: FeedlineIdParamsSchema };

@@ -3,8 +3,6 @@ import { RfInputError } from '../../../../shared/rf/errors.ts';
 import { isConnectorSection, type FeedlineSection } from '../../../../shared/schemas/feedlines.ts';
 import type { CalculationEnv } from '../calc/line-models.ts';
 
-export { sectionMatchedLossDb, sectionModels } from '../calc/line-models.ts';
-
 /** Physical length of the cable sections in metres. */
 export function feedlineLengthM(sections: readonly FeedlineSection[]): number {
   let total = 0;

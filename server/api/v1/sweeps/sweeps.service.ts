@@ -9,8 +9,7 @@ import { moveSweepThroughLine, type SweepDirection } from '../../../../shared/sw
 import { impedanceAgainst, type SweepPointInput } from '../../../../shared/sweep/points.ts';
 import { parseTouchstone } from '../../../../shared/sweep/touchstone.ts';
 import { ApiError } from '../../../http/problem.ts';
-import type { CalculationEnv } from '../calc/operations.ts';
-import { sectionModels } from '../feedlines/feedlines.service.ts';
+import { sectionModels, type CalculationEnv } from '../calc/line-models.ts';
 
 export type FileFormat = 'touchstone' | 'csv';
 

@@ -3,6 +3,7 @@ import { flushPromises, mount } from '@vue/test-utils';
 import LineForm from './LineForm.vue';
 import MatchForm from './MatchForm.vue';
 import MismatchForm from './MismatchForm.vue';
+import ReferForm from './ReferForm.vue';
 import type { FormState } from './request.ts';
 
 afterEach(() => {
@@ -77,7 +78,7 @@ describe('the line form of the Try page', () => {
       path: '/api/v1/line',
       body: {
         frequencyHz: 14_200_000,
-        line: { lengthM: 30, rlgc: { rOhmPerM: 0.05, lHPerM: 2.5e-7, gSPerM: 0, cFPerM: 1e-10 } },
+        line: { lengthM: 30, rlgc: { rOhmPerM: 0.28, lHPerM: 2.5e-7, gSPerM: 0, cFPerM: 1e-10 } },
         loadOhm: { re: 72, im: 18 },
         powerW: 100,
       },
@@ -87,6 +88,17 @@ describe('the line form of the Try page', () => {
     await type(wrapper, '#ln-c', '0');
     expect(lastState(wrapper).request).toBeNull();
     expect(lastState(wrapper).issues.join(' ')).toMatch(/cFPerM/);
+    wrapper.unmount();
+  });
+});
+
+describe('the refer form of the Try page', () => {
+  it('asks for no voltage rating: referring readings computes no voltage to check', async () => {
+    const wrapper = mount(ReferForm, { props: { cables: [] }, attachTo: document.body });
+    await wrapper.get('input[type="radio"][value="line"]').setValue(true);
+    await flushPromises();
+    expect(wrapper.find('#rf-line-rating').exists()).toBe(false);
+    expect(wrapper.find('#rf-line-length').exists()).toBe(true);
     wrapper.unmount();
   });
 });

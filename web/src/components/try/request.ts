@@ -20,7 +20,7 @@ export function mhzToHz(mhz: number): number {
   return scaled(mhz, 1e6);
 }
 
-/** A value typed in a prefixed unit to the base unit without binary noise (0.25 µH → 2.5e-7 H, not 2.4999999999999999e-7). */
+/** A value typed in a prefixed unit to the base unit without binary noise (0.21 µH → 2.1e-7 H, not 2.0999999999999997e-7). */
 export function scaled(value: number, factor: number): number {
   return Number((value * factor).toPrecision(12));
 }
