@@ -9,10 +9,10 @@ export function draftsOf(sections: readonly Section[], seed = Date.now()): { dra
   const kept: Section[] = [];
   sections.forEach((s, i) => {
     if (s.insertionLossDb !== undefined) {
-      drafts.push({ key: seed + i, kind: 'connector', cableId: null, length: null, units: 'm', insertionLossDb: s.insertionLossDb, label: s.label ?? '' });
+      drafts.push({ key: seed + i, kind: 'connector', cableId: null, length: null, units: 'm', insertionLossDb: s.insertionLossDb, label: s.label ?? '', ratingV: s.maxVoltageRmsV ?? null });
     } else if (s.cableId !== undefined) {
       const feet = s.lengthFt !== undefined;
-      drafts.push({ key: seed + i, kind: 'cable', cableId: s.cableId, length: feet ? (s.lengthFt ?? null) : (s.lengthM ?? null), units: feet ? 'ft' : 'm', insertionLossDb: null, label: s.label ?? '' });
+      drafts.push({ key: seed + i, kind: 'cable', cableId: s.cableId, length: feet ? (s.lengthFt ?? null) : (s.lengthM ?? null), units: feet ? 'ft' : 'm', insertionLossDb: null, label: s.label ?? '', ratingV: s.maxVoltageRmsV ?? null });
     } else {
       kept.push(s);
     }
@@ -28,13 +28,14 @@ export function sectionsOf(drafts: readonly SectionDraft[]): { sections: Section
     if (d.kind === 'connector') {
       if (d.insertionLossDb === null) return { problem: `Section ${i + 1}: enter the connector's insertion loss.` };
       if (!label) return { problem: `Section ${i + 1}: say what the connector is.` };
-      sections.push({ insertionLossDb: d.insertionLossDb, label });
+      sections.push(d.ratingV === null ? { insertionLossDb: d.insertionLossDb, label } : { insertionLossDb: d.insertionLossDb, label, maxVoltageRmsV: d.ratingV });
       continue;
     }
     if (!d.cableId) return { problem: `Section ${i + 1}: pick a cable.` };
     if (d.length === null) return { problem: `Section ${i + 1}: enter the length.` };
     const section: Section = d.units === 'ft' ? { cableId: d.cableId, lengthFt: d.length } : { cableId: d.cableId, lengthM: d.length };
     if (label) section.label = label;
+    if (d.ratingV !== null) section.maxVoltageRmsV = d.ratingV;
     sections.push(section);
   }
   if (!sections.some((s) => s.insertionLossDb === undefined)) return { problem: 'A feed line needs at least one cable section.' };
