@@ -157,6 +157,16 @@ export function figuresOf(answer: TryAnswer): { groups: FigureGroup[]; cautions:
           ],
         });
       }
+      if (r.sections) {
+        groups.push({
+          heading: 'Section by section, from the transmitter',
+          figures: r.sections.map((section, i) => ({
+            name: `sections.${i}`,
+            label: `Section ${i + 1}`,
+            value: `SWR ${swrText(section.atInput.swr)} at its input, ${formatNumber(section.matchedLossDb)} dB matched loss`,
+          })),
+        });
+      }
       return { groups, cautions: r.cautions };
     }
     case 'refer': {

@@ -4,6 +4,7 @@ import LineForm from './LineForm.vue';
 import MatchForm from './MatchForm.vue';
 import MismatchForm from './MismatchForm.vue';
 import ReferForm from './ReferForm.vue';
+import { figuresOf } from './figures.ts';
 import type { FormState } from './request.ts';
 
 afterEach(() => {
@@ -100,5 +101,38 @@ describe('the refer form of the Try page', () => {
     expect(wrapper.find('#rf-line-rating').exists()).toBe(false);
     expect(wrapper.find('#rf-line-length').exists()).toBe(true);
     wrapper.unmount();
+  });
+});
+
+describe('a saved feed line on the Try page', () => {
+  const sections = [
+    { cableId: 'rg-213', lengthM: 26, label: 'Buried run' },
+    { insertionLossDb: 0.12, label: 'N barrel', maxVoltageRmsV: 500 },
+    { cableId: 'rg-8x', lengthM: 9 },
+  ];
+  const feedlines = [{ id: '7d3f2e50-21d5-483e-9f91-2a6dcd2eefc1', name: 'Hut to mast', notes: '', sections, createdAt: '', updatedAt: '' }];
+
+  it('sends the saved sections inline, as they are, to POST /api/v1/line', async () => {
+    const wrapper = mount(LineForm, { props: { cables: [], feedlines: feedlines as never }, attachTo: document.body });
+    await wrapper.get('input[type="radio"][value="saved"]').setValue(true);
+    await flushPromises();
+    expect(wrapper.find('#ln-length').exists()).toBe(false);
+    expect(lastState(wrapper).request).toMatchObject({ endpoint: 'line', body: { line: sections } });
+    wrapper.unmount();
+  });
+
+  it('offers no saved feed line when there is none', async () => {
+    const wrapper = mount(LineForm, { props: { cables: [] }, attachTo: document.body });
+    await flushPromises();
+    expect(wrapper.find('input[type="radio"][value="saved"]').exists()).toBe(false);
+    wrapper.unmount();
+  });
+
+  it('reads the answer section by section', () => {
+    const end = { reflection: { re: 0, im: 0, magnitude: 0.2, angleDeg: 0 }, swr: 1.5, returnLossDb: 14, impedanceOhm: { re: 75, im: 0 } };
+    const one = { inputOhm: { re: 75, im: 0 }, characteristicOhm: { re: 50, im: 0 }, electricalLengthDeg: 10, lengthWavelengths: 0.03, matchedLossDb: 0.5, totalLossDb: 0.6, mismatchExtraLossDb: 0.1, atLoad: end, atInput: end, cautions: [] };
+    const { groups } = figuresOf({ endpoint: 'line', body: { ...one, sections: [one, one] } as never });
+    const bySection = groups.find((g) => g.heading.startsWith('Section by section'));
+    expect(bySection?.figures.map((f) => f.value)).toEqual(['SWR 1.500 : 1 at its input, 0.5000 dB matched loss', 'SWR 1.500 : 1 at its input, 0.5000 dB matched loss']);
   });
 });
