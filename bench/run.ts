@@ -123,11 +123,14 @@ async function p1(base: string, key: string): Promise<Target> {
   const p99s: number[] = [];
   const loopMaxes: number[] = [];
   const bareP99s: number[] = [];
+  const lateP99s: number[] = [];
   for (let i = 0; i < RUNS; i++) {
     await fetch(`${base}/bench/loop/reset`, { method: 'POST' });
-    p99s.push(await pacedP99(calcUrl, body, bearer, half));
+    const calcRun = await pacedP99(calcUrl, body, bearer, half);
+    p99s.push(calcRun.p99);
+    lateP99s.push(calcRun.lateP99);
     loopMaxes.push(((await (await fetch(`${base}/bench/loop`)).json()) as { maxMs: number }).maxMs);
-    bareP99s.push(await pacedP99(bareUrl, body, {}, half));
+    bareP99s.push((await pacedP99(bareUrl, body, {}, half)).p99);
   }
   const ratio = median(ratios);
   const p99 = median(p99s);
@@ -141,6 +144,7 @@ async function p1(base: string, key: string): Promise<Target> {
       calcServerCpuUsPerRequest: median(calcCpu),
       p99MsAtHalfLoad: p99,
       serverLongestPauseMsAtHalfLoad: median(loopMaxes),
+      generatorLatenessP99MsAtHalfLoad: median(lateP99s),
       halfLoadRps: half,
       bareP99MsAtSameRate: median(bareP99s),
       pacedFailures,
@@ -164,14 +168,19 @@ let pacedFailures = 0;
 /** Each paced run starts with this much unmeasured load at the same rate (see pacedLoad). */
 const PACED_LEAD_IN_S = 1;
 
-async function pacedP99(url: string, body: string, headers: Record<string, string>, rate: number): Promise<number> {
+/**
+ * p99 latency, and the p99 of how late requests left the generator: waiting for a free connection
+ * (the server's doing) or the generator being held up itself (the machine's). Reported beside the
+ * latency so a reader can see how much of the tail the client side shares.
+ */
+async function pacedP99(url: string, body: string, headers: Record<string, string>, rate: number): Promise<{ p99: number; lateP99: number }> {
   const { latencies, lateness, failures, dueAt } = await pacedLoad(url, body, headers, { rate, seconds: SECONDS, connections: CONNECTIONS, leadInSeconds: PACED_LEAD_IN_S });
   // A failed request is reported, not hidden: it counts in the p99 as the slowest answer there is.
   if (failures.length > 0) console.error(`[bench] ${url}: ${failures.length} of ${latencies.length} requests failed during the paced load: ${failures.slice(0, 3).join(' | ')}`);
   pacedFailures += failures.length;
   const sorted = [...latencies].sort((a, b) => a - b);
+  const late = [...lateness].sort((a, b) => a - b);
   if (process.env.BENCH_DEBUG) {
-    const late = [...lateness].sort((a, b) => a - b);
     const q = (xs: number[], f: number) => xs[Math.min(xs.length - 1, Math.floor(xs.length * f))]!.toFixed(1);
     const slow = new Map<number, number>();
     latencies.forEach((ms, i) => {
@@ -180,7 +189,8 @@ async function pacedP99(url: string, body: string, headers: Record<string, strin
     console.error(`[bench] ${url} at ${rate}/s: send lateness p50 ${q(late, 0.5)} p99 ${q(late, 0.99)} ms`);
     console.error(`[bench]   latency p50 ${q(sorted, 0.5)} p90 ${q(sorted, 0.9)} p99 ${q(sorted, 0.99)} p99.9 ${q(sorted, 0.999)} max ${q(sorted, 1)} ms; over 10 ms by 100-ms slot: ${[...slow].map(([k, v]) => `${k}:${v}`).join(' ')}`);
   }
-  return sorted[Math.min(sorted.length - 1, Math.floor(sorted.length * 0.99))]!;
+  const at99 = (xs: number[]) => xs[Math.min(xs.length - 1, Math.floor(xs.length * 0.99))]!;
+  return { p99: at99(sorted), lateP99: late.length > 0 ? at99(late) : 0 };
 }
 
 function post(url: string, body: string | Readable, headers: Record<string, string>): Promise<{ status: number; ms: number; bytes: number }> {
