@@ -9,6 +9,7 @@ export type TryAnswer =
   | { endpoint: 'line'; body: Schemas['LineResult'] }
   | { endpoint: 'refer'; body: Schemas['ReferResult'] }
   | { endpoint: 'match'; body: Schemas['MatchResult'] }
+  | { endpoint: 'batch'; body: Schemas['BatchResponse'] }
   | { endpoint: 'attenuation'; body: Schemas['CableAttenuation'] };
 
 /**
@@ -27,6 +28,9 @@ export async function sendTry(request: TryRequest): Promise<TryAnswer> {
       return { endpoint: 'refer', body: await unwrap(api.POST('/api/v1/line/refer', { body: request.body as Schemas['ReferRequest'] })) };
     case 'match':
       return { endpoint: 'match', body: await unwrap(api.POST('/api/v1/match', { body: request.body as Schemas['MatchRequest'] })) };
+    case 'batch':
+      // The JSON answer: the console sends application/json, never the NDJSON stream.
+      return { endpoint: 'batch', body: (await unwrap(api.POST('/api/v1/batch', { body: request.body as Schemas['BatchRequest'] }))) as Schemas['BatchResponse'] };
     case 'attenuation':
       return {
         endpoint: 'attenuation',
@@ -86,9 +90,31 @@ function endFigures(prefix: string, e: Schemas['ReferResult']['source']): Figure
   return list;
 }
 
+/** One computed batch output in a few words: its key figure, whichever calculation gave it. */
+function batchOutputText(output: Record<string, unknown>): string {
+  const o = output as { swr?: number | null; inputOhm?: { re: number; im: number }; load?: { swr: number | null }; solutions?: unknown[]; reflection?: { magnitude: number } };
+  if (o.inputOhm) return `input impedance ${formatImpedance(o.inputOhm)}`;
+  if (o.load) return `SWR at the antenna ${swrText(o.load.swr)}`;
+  if (o.solutions) return `${o.solutions.length} L-network(s)`;
+  if (o.reflection) return `|Γ| ${formatNumber(o.reflection.magnitude)}, SWR ${swrText(o.swr)}`;
+  if (o.swr !== undefined) return `SWR ${swrText(o.swr)}`;
+  return 'computed';
+}
+
 /** Readable groups of values and the cautions of an answer. */
 export function figuresOf(answer: TryAnswer): { groups: FigureGroup[]; cautions: string[] } {
   switch (answer.endpoint) {
+    case 'batch': {
+      const results = answer.body.results;
+      const computed = results.filter((r) => r.ok).length;
+      const cautions: string[] = [];
+      const figures = results.map((r, i) => {
+        if (!r.ok) return { name: `results.${i}`, label: `Item ${i + 1}`, value: `refused (${r.problem.status}): ${r.problem.detail ?? r.problem.title}` };
+        for (const c of (r.output as { cautions?: string[] }).cautions ?? []) cautions.push(`Item ${i + 1}: ${c}`);
+        return { name: `results.${i}`, label: `Item ${i + 1}`, value: batchOutputText(r.output as Record<string, unknown>) };
+      });
+      return { groups: [{ heading: `${results.length} item(s): ${computed} computed, ${results.length - computed} refused`, figures }], cautions };
+    }
     case 'mismatch': {
       const r = answer.body;
       const figures = [{ name: 'reflectionMagnitude', label: '|Γ|', value: formatNumber(r.reflectionMagnitude) }, ...mismatchFigures(r)];

@@ -1,5 +1,6 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { flushPromises, mount } from '@vue/test-utils';
+import BatchForm from './BatchForm.vue';
 import LineForm from './LineForm.vue';
 import MatchForm from './MatchForm.vue';
 import MismatchForm from './MismatchForm.vue';
@@ -134,5 +135,39 @@ describe('a saved feed line on the Try page', () => {
     const { groups } = figuresOf({ endpoint: 'line', body: { ...one, sections: [one, one] } as never });
     const bySection = groups.find((g) => g.heading.startsWith('Section by section'));
     expect(bySection?.figures.map((f) => f.value)).toEqual(['SWR 1.500 : 1 at its input, 0.5000 dB matched loss', 'SWR 1.500 : 1 at its input, 0.5000 dB matched loss']);
+  });
+});
+
+describe('the batch form of the Try page', () => {
+  it('starts with an example whose last item the server will refuse, and sends every item as written', async () => {
+    const wrapper = mount(BatchForm, { attachTo: document.body });
+    await flushPromises();
+    const state = lastState(wrapper);
+    expect(state.request).toMatchObject({ endpoint: 'batch', method: 'POST', path: '/api/v1/batch' });
+    const items = (state.request as { body: { items: { op: string; input: object }[] } }).body.items;
+    expect(items.map((i) => i.op)).toEqual(['mismatch', 'line', 'refer', 'mismatch']);
+    expect(items[3]!.input).toEqual({ swr: 0.8 });
+    wrapper.unmount();
+  });
+
+  it('says so when the text is not JSON, and when there are no items', async () => {
+    const wrapper = mount(BatchForm, { attachTo: document.body });
+    await wrapper.get('#bt-body').setValue('{ "items": [');
+    await flushPromises();
+    expect(lastState(wrapper).request).toBeNull();
+    expect(lastState(wrapper).issues[0]).toMatch(/^The text is not JSON/);
+    await wrapper.get('#bt-body').setValue('{ "items": [] }');
+    await flushPromises();
+    expect(lastState(wrapper).issues).toEqual(['items: send at least one item']);
+    wrapper.unmount();
+  });
+
+  it('reads a batch answer item by item, refusals and cautions included', () => {
+    const problem = { type: 'urn:gammaline:problem:unprocessable', title: 'The input cannot be computed', status: 422, detail: 'items.1.input.swr: Too small' };
+    const line = { inputOhm: { re: 50, im: 0 }, cautions: ['Caution: the computed RMS voltage…'] };
+    const { groups, cautions } = figuresOf({ endpoint: 'batch', body: { results: [{ ok: true, output: { swr: 1.5 } }, { ok: false, problem }, { ok: true, output: line }] } as never });
+    expect(groups[0]!.heading).toBe('3 item(s): 2 computed, 1 refused');
+    expect(groups[0]!.figures.map((f) => f.value)).toEqual(['SWR 1.500 : 1', 'refused (422): items.1.input.swr: Too small', 'input impedance 50.00 + j0 Ω']);
+    expect(cautions).toEqual(['Item 3: Caution: the computed RMS voltage…']);
   });
 });

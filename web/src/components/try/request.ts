@@ -5,6 +5,7 @@ export type TryRequest =
   | { endpoint: 'line'; method: 'POST'; path: '/api/v1/line'; body: object }
   | { endpoint: 'refer'; method: 'POST'; path: '/api/v1/line/refer'; body: object }
   | { endpoint: 'match'; method: 'POST'; path: '/api/v1/match'; body: object }
+  | { endpoint: 'batch'; method: 'POST'; path: '/api/v1/batch'; body: object }
   | { endpoint: 'attenuation'; method: 'GET'; path: string; cableId: string; query: Record<string, number> };
 
 export type TryEndpoint = TryRequest['endpoint'];
