@@ -5,6 +5,31 @@ import type { Role } from '../router/routes.ts';
 
 export type SessionView = Schemas['Session'];
 
+/**
+ * Whether this browser was signed in when the console last knew: '1' or '0'. On a page load after a
+ * sign-out (or after a visit that found nobody signed in) the console then skips asking the server,
+ * whose 401 would otherwise show as a failed request in the browser's console on every visit. With
+ * no hint (a first visit, storage cleared or blocked) it asks.
+ */
+export const SESSION_HINT_KEY = 'gammaline.signedIn';
+
+function readHint(): '1' | '0' | null {
+  try {
+    const v = globalThis.localStorage?.getItem(SESSION_HINT_KEY);
+    return v === '1' || v === '0' ? v : null;
+  } catch {
+    return null; // storage blocked (privacy modes): always ask
+  }
+}
+
+function writeHint(signedIn: boolean): void {
+  try {
+    globalThis.localStorage?.setItem(SESSION_HINT_KEY, signedIn ? '1' : '0');
+  } catch {
+    /* see readHint */
+  }
+}
+
 /** The signed-in member, or nobody. Loaded once per page load, then kept in step by sign-in and sign-out. */
 export const useSessionStore = defineStore('session', () => {
   const current = shallowRef<SessionView | null>(null);
@@ -19,6 +44,7 @@ export const useSessionStore = defineStore('session', () => {
 
   function set(view: SessionView | null): void {
     current.value = view;
+    writeHint(view !== null);
     setCsrfToken(view?.csrfToken ?? null);
     loaded.value = true;
   }
@@ -26,6 +52,11 @@ export const useSessionStore = defineStore('session', () => {
   /** Asks the server who we are; a 401 simply means nobody is signed in. */
   function ensureLoaded(): Promise<void> {
     if (loaded.value) return Promise.resolve();
+    if (readHint() === '0') {
+      // Signed out here last time: a session can only have begun through this console's sign-in, which sets the hint.
+      set(null);
+      return Promise.resolve();
+    }
     pending ??= unwrap(api.GET('/api/v1/session'))
       .then(
         (view) => set(view),

@@ -1,0 +1,48 @@
+import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
+import { createPinia, setActivePinia } from 'pinia';
+import { fakeApi, json, notSignedIn, sessionOf } from '../test/fakeApi.ts';
+import { SESSION_HINT_KEY, useSessionStore } from './session.ts';
+
+beforeEach(() => {
+  setActivePinia(createPinia());
+});
+
+afterEach(() => {
+  vi.unstubAllGlobals();
+  localStorage.clear();
+});
+
+describe('the console session on page load', () => {
+  it('asks the server when it has no hint, and remembers that nobody was signed in', async () => {
+    const seen = fakeApi({ 'GET /api/v1/session': notSignedIn });
+    await useSessionStore().ensureLoaded();
+    expect(seen.map((r) => `${r.method} ${new URL(r.url).pathname}`)).toEqual(['GET /api/v1/session']);
+    expect(localStorage.getItem(SESSION_HINT_KEY)).toBe('0');
+  });
+
+  it('does not ask again after a visit that found nobody signed in (no failed request on every load)', async () => {
+    localStorage.setItem(SESSION_HINT_KEY, '0');
+    const seen = fakeApi({ 'GET /api/v1/session': notSignedIn });
+    const session = useSessionStore();
+    await session.ensureLoaded();
+    expect(seen).toEqual([]);
+    expect(session.loaded).toBe(true);
+    expect(session.signedIn).toBe(false);
+  });
+
+  it('asks when it was signed in last time, and keeps the hint in step with sign-in and sign-out', async () => {
+    localStorage.setItem(SESSION_HINT_KEY, '1');
+    fakeApi({
+      'GET /api/v1/session': () => json(sessionOf('developer')),
+      'DELETE /api/v1/session': () => new Response(null, { status: 204 }),
+      'POST /api/v1/session': () => json(sessionOf('admin')),
+    });
+    const session = useSessionStore();
+    await session.ensureLoaded();
+    expect(session.member?.role).toBe('developer');
+    await session.signOut();
+    expect(localStorage.getItem(SESSION_HINT_KEY)).toBe('0');
+    await session.signIn('admin@kestrel-ridge.example', 'gammaline-demo-2026');
+    expect(localStorage.getItem(SESSION_HINT_KEY)).toBe('1');
+  });
+});
