@@ -124,13 +124,16 @@ async function p1(base: string, key: string): Promise<Target> {
   const loopMaxes: number[] = [];
   const bareP99s: number[] = [];
   const lateP99s: number[] = [];
+  const bareLateP99s: number[] = [];
   for (let i = 0; i < RUNS; i++) {
     await fetch(`${base}/bench/loop/reset`, { method: 'POST' });
     const calcRun = await pacedP99(calcUrl, body, bearer, half);
     p99s.push(calcRun.p99);
     lateP99s.push(calcRun.lateP99);
     loopMaxes.push(((await (await fetch(`${base}/bench/loop`)).json()) as { maxMs: number }).maxMs);
-    bareP99s.push((await pacedP99(bareUrl, body, {}, half)).p99);
+    const bareRun = await pacedP99(bareUrl, body, {}, half);
+    bareP99s.push(bareRun.p99);
+    bareLateP99s.push(bareRun.lateP99);
   }
   const ratio = median(ratios);
   const p99 = median(p99s);
@@ -147,6 +150,7 @@ async function p1(base: string, key: string): Promise<Target> {
       generatorLatenessP99MsAtHalfLoad: median(lateP99s),
       halfLoadRps: half,
       bareP99MsAtSameRate: median(bareP99s),
+      bareGeneratorLatenessP99MsAtSameRate: median(bareLateP99s),
       pacedFailures,
       bareFirstRps: median(firstRates),
       ratioToBareFirst: median(firstRatios),

@@ -45,4 +45,24 @@ describe('the console session on page load', () => {
     await session.signIn('admin@kestrel-ridge.example', 'gammaline-demo-2026');
     expect(localStorage.getItem(SESSION_HINT_KEY)).toBe('1');
   });
+
+  it('forgets the hint instead of recording "signed out" when the server could not answer', async () => {
+    localStorage.setItem(SESSION_HINT_KEY, '1');
+    const unavailable = () => json({ type: 'urn:gammaline:problem:unavailable', title: 'Service unavailable', status: 503, detail: 'The database is unreachable; retry shortly.' }, 503);
+    fakeApi({ 'GET /api/v1/session': unavailable, 'DELETE /api/v1/session': unavailable });
+    const session = useSessionStore();
+    await session.ensureLoaded();
+    expect(session.signedIn).toBe(false);
+    expect(localStorage.getItem(SESSION_HINT_KEY)).toBeNull();
+    localStorage.setItem(SESSION_HINT_KEY, '1');
+    await session.signOut().catch(() => {});
+    expect(localStorage.getItem(SESSION_HINT_KEY)).toBeNull();
+  });
+
+  it('forgets the hint when the network is down', async () => {
+    localStorage.setItem(SESSION_HINT_KEY, '1');
+    vi.stubGlobal('fetch', vi.fn(async () => { throw new TypeError('offline'); }));
+    await useSessionStore().ensureLoaded();
+    expect(localStorage.getItem(SESSION_HINT_KEY)).toBeNull();
+  });
 });

@@ -1,6 +1,6 @@
 import { computed, ref, shallowRef } from 'vue';
 import { defineStore } from 'pinia';
-import { api, setCsrfToken, unwrap, unwrapEmpty, type Schemas } from '../api/client.ts';
+import { api, asProblem, setCsrfToken, unwrap, unwrapEmpty, type Schemas } from '../api/client.ts';
 import type { Role } from '../router/routes.ts';
 
 export type SessionView = Schemas['Session'];
@@ -22,9 +22,11 @@ function readHint(): '1' | '0' | null {
   }
 }
 
-function writeHint(signedIn: boolean): void {
+/** `null` forgets: the next page load asks the server. */
+function writeHint(signedIn: boolean | null): void {
   try {
-    globalThis.localStorage?.setItem(SESSION_HINT_KEY, signedIn ? '1' : '0');
+    if (signedIn === null) globalThis.localStorage?.removeItem(SESSION_HINT_KEY);
+    else globalThis.localStorage?.setItem(SESSION_HINT_KEY, signedIn ? '1' : '0');
   } catch {
     /* see readHint */
   }
@@ -42,9 +44,11 @@ export const useSessionStore = defineStore('session', () => {
   const isAdmin = computed(() => role.value === 'admin');
   const signedIn = computed(() => current.value !== null);
 
-  function set(view: SessionView | null): void {
+  // The hint records only what the server said: signed in, a 401, or a sign-out it confirmed. An
+  // outage or a network error says nothing about the session, so it leaves the next load to ask.
+  function set(view: SessionView | null, hint: boolean | null = view !== null): void {
     current.value = view;
-    writeHint(view !== null);
+    writeHint(hint);
     setCsrfToken(view?.csrfToken ?? null);
     loaded.value = true;
   }
@@ -53,17 +57,18 @@ export const useSessionStore = defineStore('session', () => {
   function ensureLoaded(): Promise<void> {
     if (loaded.value) return Promise.resolve();
     if (readHint() === '0') {
-      // Signed out here last time: a session can only have begun through this console's sign-in, which sets the hint.
+      // The server said nobody was signed in here: a session can only begin through this console's
+      // sign-in, which sets the hint again.
       set(null);
       return Promise.resolve();
     }
     pending ??= unwrap(api.GET('/api/v1/session'))
       .then(
         (view) => set(view),
-        () => {
+        (error: unknown) => {
           // Signed out (401) or offline: the console still opens, on the pages that need nobody;
           // the Status page tells an unreachable server apart.
-          set(null);
+          set(null, asProblem(error).status === 401 ? false : null);
         },
       )
       .finally(() => {
@@ -79,10 +84,12 @@ export const useSessionStore = defineStore('session', () => {
   }
 
   async function signOut(): Promise<void> {
+    let confirmed = false;
     try {
       await unwrapEmpty(api.DELETE('/api/v1/session'));
+      confirmed = true;
     } finally {
-      set(null);
+      set(null, confirmed ? false : null);
     }
   }
 

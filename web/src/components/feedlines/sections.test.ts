@@ -8,10 +8,16 @@ describe('feed line sections in the editor', () => {
       { insertionLossDb: 0.1, label: 'N barrel', maxVoltageRmsV: 500 },
       { cableId: 'rg-8x', lengthFt: 12 },
       { insertionLossDb: 0.05, label: 'Lightning arrestor' },
+      { insertionLossDb: 0.2, label: '75 to 50 ohm adapter', impedanceOhm: 75, maxVoltageRmsV: 500 },
     ];
     const { drafts, kept } = draftsOf(stored, 1);
     expect(kept).toEqual([]);
     expect(sectionsOf(drafts)).toEqual({ sections: stored });
+  });
+
+  it('asks for a rating above 0 V rather than sending one the API refuses', () => {
+    const { drafts } = draftsOf([{ cableId: 'rg-213', lengthM: 10 }], 1);
+    expect(sectionsOf([{ ...drafts[0]!, ratingV: 0 }])).toEqual({ problem: 'Section 1: a voltage rating is above 0 V (leave it empty for none).' });
   });
 
   it('leaves sections it cannot show (Z0/VF/loss, RLGC) to be kept as they are', () => {

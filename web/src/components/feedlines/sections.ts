@@ -9,7 +9,7 @@ export function draftsOf(sections: readonly Section[], seed = Date.now()): { dra
   const kept: Section[] = [];
   sections.forEach((s, i) => {
     if (s.insertionLossDb !== undefined) {
-      drafts.push({ key: seed + i, kind: 'connector', cableId: null, length: null, units: 'm', insertionLossDb: s.insertionLossDb, label: s.label ?? '', ratingV: s.maxVoltageRmsV ?? null });
+      drafts.push({ key: seed + i, kind: 'connector', cableId: null, length: null, units: 'm', insertionLossDb: s.insertionLossDb, label: s.label ?? '', ratingV: s.maxVoltageRmsV ?? null, impedanceOhm: s.impedanceOhm });
     } else if (s.cableId !== undefined) {
       const feet = s.lengthFt !== undefined;
       drafts.push({ key: seed + i, kind: 'cable', cableId: s.cableId, length: feet ? (s.lengthFt ?? null) : (s.lengthM ?? null), units: feet ? 'ft' : 'm', insertionLossDb: null, label: s.label ?? '', ratingV: s.maxVoltageRmsV ?? null });
@@ -25,10 +25,14 @@ export function sectionsOf(drafts: readonly SectionDraft[]): { sections: Section
   const sections: Section[] = [];
   for (const [i, d] of drafts.entries()) {
     const label = d.label.trim();
+    if (d.ratingV !== null && !(d.ratingV > 0)) return { problem: `Section ${i + 1}: a voltage rating is above 0 V (leave it empty for none).` };
     if (d.kind === 'connector') {
       if (d.insertionLossDb === null) return { problem: `Section ${i + 1}: enter the connector's insertion loss.` };
       if (!label) return { problem: `Section ${i + 1}: say what the connector is.` };
-      sections.push(d.ratingV === null ? { insertionLossDb: d.insertionLossDb, label } : { insertionLossDb: d.insertionLossDb, label, maxVoltageRmsV: d.ratingV });
+      const connector: Section = { insertionLossDb: d.insertionLossDb, label };
+      if (d.impedanceOhm !== undefined) connector.impedanceOhm = d.impedanceOhm;
+      if (d.ratingV !== null) connector.maxVoltageRmsV = d.ratingV;
+      sections.push(connector);
       continue;
     }
     if (!d.cableId) return { problem: `Section ${i + 1}: pick a cable.` };

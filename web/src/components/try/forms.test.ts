@@ -6,6 +6,7 @@ import MatchForm from './MatchForm.vue';
 import MismatchForm from './MismatchForm.vue';
 import ReferForm from './ReferForm.vue';
 import { figuresOf } from './figures.ts';
+import { LineRequestSchema, MismatchRequestSchema, ReferRequestSchema } from '../../../../shared/schemas/calc.ts';
 import type { FormState } from './request.ts';
 
 afterEach(() => {
@@ -118,6 +119,7 @@ describe('a saved feed line on the Try page', () => {
     await wrapper.get('input[type="radio"][value="saved"]').setValue(true);
     await flushPromises();
     expect(wrapper.find('#ln-length').exists()).toBe(false);
+    expect(wrapper.find('#ln-feedline').exists()).toBe(true); // the label's target
     expect(lastState(wrapper).request).toMatchObject({ endpoint: 'line', body: { line: sections } });
     wrapper.unmount();
   });
@@ -146,7 +148,9 @@ describe('the batch form of the Try page', () => {
     expect(state.request).toMatchObject({ endpoint: 'batch', method: 'POST', path: '/api/v1/batch' });
     const items = (state.request as { body: { items: { op: string; input: object }[] } }).body.items;
     expect(items.map((i) => i.op)).toEqual(['mismatch', 'line', 'refer', 'mismatch']);
-    expect(items[3]!.input).toEqual({ swr: 0.8 });
+    // Checked with the schemas the server validates each item with: the first three pass, the last does not.
+    const schemas = { mismatch: MismatchRequestSchema, line: LineRequestSchema, refer: ReferRequestSchema } as const;
+    expect(items.map((i) => schemas[i.op as keyof typeof schemas].safeParse(i.input).success)).toEqual([true, true, true, false]);
     wrapper.unmount();
   });
 
