@@ -9,7 +9,7 @@ import { toComplex } from '../../../../shared/schemas/common.ts';
 // Line descriptions of requests (one LineSpec, or sections) turned into the models shared/rf transforms
 // through; used by the single calculations, batch, feed lines, sweeps and the demo seed.
 
-/** Where cable ids are looked up: the built-in catalog now, account-defined cables later. */
+/** Where cable ids are looked up: the built-in catalog, and the organisation's own cables (cables.env.ts). */
 export interface CalculationEnv {
   findCable: (id: string) => CableType | undefined;
 }
