@@ -29,9 +29,9 @@ function withCommonAnswers(doc: Document): Document {
     for (const method of ['get', 'put', 'post', 'patch', 'delete'] as const) {
       const op = item?.[method];
       if (!op) continue;
-      const params = (op.parameters ?? []).filter((p) => 'in' in p);
+      const params = (op.parameters ?? []).flatMap((p) => ('in' in p ? [p.in] : []));
       const hasBody = op.requestBody !== undefined && 'content' in op.requestBody;
-      const hasQuery = params.some((p) => 'in' in p && p.in === 'query');
+      const hasQuery = params.includes('query');
       const answers: Record<string, string> = {
         ...(hasBody || params.length > 0 ? MALFORMED : {}),
         ...(hasBody || hasQuery ? UNCOMPUTABLE : {}),

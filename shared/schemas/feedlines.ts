@@ -56,7 +56,6 @@ export const FeedlineLineRequestSchema = z
   })
   .meta({ id: 'FeedlineLineRequest', example: { frequencyHz: 7_100_000, loadOhm: { re: 62, im: -14 }, powerW: 100 } });
 
-
 export const FeedlineReferRequestSchema = z
   .strictObject({
     frequencyHz: FrequencyHz,

@@ -1,12 +1,12 @@
 import type { z } from 'zod';
-import { cascadeLines, transformLine } from '../../../../shared/rf/line.ts';
+import { cascadeLines, transformLine, type LineModel } from '../../../../shared/rf/line.ts';
 import { lNetworkSolutions } from '../../../../shared/rf/match.ts';
 import { mismatch, type MismatchInput } from '../../../../shared/rf/mismatch.ts';
 import { referReading } from '../../../../shared/rf/refer.ts';
 import { reflectionReport, reflectionReportFromGamma } from '../../../../shared/rf/reflection.ts';
 import {
-  LineResultSchema,
   LineRequestSchema,
+  LineResultSchema,
   MatchRequestSchema,
   MatchResultSchema,
   MismatchRequestSchema,
@@ -47,6 +47,15 @@ function definedOnly<T extends object>(value: T): T {
   return out as T;
 }
 
+type ReferReading = Parameters<typeof referReading>[0]['reading'];
+
+/** A reading referred through line models, whose matched losses add up; each model's own loss is listed too. */
+export function referThroughModels(models: readonly LineModel[], direction: 'sourceToLoad' | 'loadToSource', reading: ReferReading) {
+  const sectionsMatchedLossDb = models.map(sectionMatchedLossDb);
+  const matchedLossDb = sectionsMatchedLossDb.reduce((a, b) => a + b, 0);
+  return { ...referReading({ matchedLossDb, direction, reading }), sectionsMatchedLossDb };
+}
+
 interface Calculation<Req extends z.ZodType, Res extends z.ZodType> {
   request: Req;
   result: Res;
@@ -85,13 +94,10 @@ export const CALCULATIONS = {
     request: ReferRequestSchema,
     result: ReferResultSchema,
     run: (input, env) => {
-      const reading = definedOnly(input.reading) as Parameters<typeof referReading>[0]['reading'];
+      const reading = definedOnly(input.reading) as ReferReading;
       if (input.matchedLossDb !== undefined) return referReading({ matchedLossDb: input.matchedLossDb, direction: input.direction, reading });
-      const models = lineModelsOf(input.line!, input.frequencyHz!, env);
-      if (!Array.isArray(input.line)) return referReading({ matchedLossDb: sectionMatchedLossDb(models[0]!), direction: input.direction, reading });
-      const sectionsMatchedLossDb = models.map(sectionMatchedLossDb);
-      const matchedLossDb = sectionsMatchedLossDb.reduce((a, b) => a + b, 0);
-      return { ...referReading({ matchedLossDb, direction: input.direction, reading }), sectionsMatchedLossDb };
+      const { sectionsMatchedLossDb, ...referred } = referThroughModels(lineModelsOf(input.line!, input.frequencyHz!, env), input.direction, reading);
+      return Array.isArray(input.line) ? { ...referred, sectionsMatchedLossDb } : referred;
     },
   }),
   match: calculation({

@@ -1,7 +1,6 @@
 import { Router, type RequestHandler } from 'express';
 import type { z } from 'zod';
 import { cascadeLines } from '../../../../shared/rf/line.ts';
-import { referReading } from '../../../../shared/rf/refer.ts';
 import { toComplex } from '../../../../shared/schemas/common.ts';
 import {
   CreateFeedlineSchema,
@@ -21,10 +20,10 @@ import { authProblems, keyOrSession, meteredProblems, rateLimitHeaders } from '.
 import { ApiError } from '../../../http/problem.ts';
 import { validateBody, validateParams } from '../../../http/validate.ts';
 import { calculationProblems, problemResponses, registry, json } from '../../../openapi/registry.ts';
-import { assertFinite } from '../calc/operations.ts';
+import { assertFinite, referThroughModels } from '../calc/operations.ts';
 import { calculationEnvFor, cableIdsIn } from '../cables/cables.env.ts';
 import { deleteFeedline, findFeedline, insertFeedline, listFeedlines, updateFeedline, type FeedlineRecord } from './feedlines.repository.ts';
-import { sectionMatchedLossDb, sectionModels } from '../calc/line-models.ts';
+import { sectionModels } from '../calc/line-models.ts';
 import { assertCablesKnown, feedlineLengthM } from './feedlines.service.ts';
 
 const tags = ['Feed lines'];
@@ -212,10 +211,8 @@ export function feedlinesRouter(ctx: AppContext): Router {
       const feedline = res.locals.feedline as FeedlineRecord;
       const input = res.locals.body as z.infer<typeof FeedlineReferRequestSchema>;
       const env = await calculationEnvFor(db, callerOf(res).organisationId, cableIdsIn(feedline.sections));
-      const losses = sectionModels(feedline.sections, input.frequencyHz, env).map(sectionMatchedLossDb);
-      const matchedLossDb = losses.reduce((a, b) => a + b, 0);
-      const referred = referReading({ matchedLossDb, direction: input.direction, reading: input.reading as Parameters<typeof referReading>[0]['reading'] });
-      const result: z.input<typeof FeedlineReferResultSchema> = { ...referred, sectionsMatchedLossDb: losses };
+      const reading = input.reading as Parameters<typeof referThroughModels>[2];
+      const result: z.input<typeof FeedlineReferResultSchema> = referThroughModels(sectionModels(feedline.sections, input.frequencyHz, env), input.direction, reading);
       res.json(assertFinite(result));
     },
   );
