@@ -10,12 +10,14 @@ import { healthRouter } from './api/health.routes.ts';
 import { v1Router } from './api/v1/router.ts';
 import { byteSize, refuseOversizedBodies } from './http/body-size.ts';
 import { notFoundHandler, problemErrorHandler } from './http/error-middleware.ts';
+import { methodNotAllowed } from './http/method-not-allowed.ts';
 import { requestLog } from './http/request-log.ts';
 import { securityHeaders } from './http/security-headers.ts';
 import { BATCH_JSON_LIMIT } from './api/v1/batch/batch.routes.ts';
 import { NDJSON_TYPE } from './api/v1/batch/batch.ndjson.ts';
 import { MAX_SWEEP_UPLOAD_BYTES } from './api/v1/sweeps/sweeps.upload.ts';
-import { openApiDocument } from './openapi/document.ts';
+import { LOCAL_MODE_PATH_PREFIX } from './api/v1/mail/mail.routes.ts';
+import { openApiDocument, serveOpenApiDocument } from './openapi/document.ts';
 import { sessionMiddleware } from './auth/session.ts';
 import { createLogOnlyMailer, type Mailer } from './mail/mailer.ts';
 
@@ -84,14 +86,15 @@ export function createApp(deps: AppDependencies): Express {
   deps.beforeApi?.(app);
   // The API first: calculations are the hot path, so they pass as few layers as possible.
   const api = express.Router();
-  api.get('/openapi.json', (_req, res) => {
-    res.json(openApiDocument());
-  });
+  api.get('/openapi.json', serveOpenApiDocument);
   // Only the API reads the console session; static files and docs never touch the session table.
   api.use(sessionMiddleware(ctx));
   api.use(v1Router(ctx));
   app.use('/api/v1', api);
   app.use(healthRouter(ctx));
+  // Paths that exist in this mode only: in production the local mail routes answer 404 to any method.
+  const servedPaths = Object.fromEntries(Object.entries(openApiDocument().paths ?? {}).filter(([p]) => local || !p.startsWith(LOCAL_MODE_PATH_PREFIX)));
+  app.use(['/api', '/healthz', '/readyz'], methodNotAllowed(servedPaths));
   app.use('/api', notFoundHandler);
   app.use('/docs', swaggerUi.serve, swaggerUi.setup(openApiDocument(), { customSiteTitle: 'Gammaline API reference' }));
 

@@ -52,7 +52,7 @@ export interface AppConfig {
   statementTimeoutMs: number;
 }
 
-export const APP_VERSION = '0.1.0';
+export const APP_VERSION = '0.2.0';
 
 /** Parses the process environment; throws a readable list of what is wrong. */
 export function loadConfig(env: NodeJS.ProcessEnv = process.env): AppConfig {

@@ -2,13 +2,15 @@ import { Router } from 'express';
 import { sql } from 'drizzle-orm';
 import { z } from '../zod.ts';
 import { registry, problemResponses } from '../openapi/registry.ts';
+import { publicAccess } from '../auth/openapi.ts';
 import { ApiError } from '../http/problem.ts';
 import type { AppContext } from '../context.ts';
+import { APP_VERSION } from '../config.ts';
 
 const Health = z
   .object({
     status: z.literal('ok'),
-    version: z.string().openapi({ example: '0.1.0' }),
+    version: z.string().openapi({ example: APP_VERSION }),
     uptimeS: z.number().openapi({ description: 'Seconds since the process started.', example: 12.5 }),
   })
   .openapi('Health');
@@ -20,6 +22,8 @@ const Readiness = z
 registry.registerPath({
   method: 'get',
   path: '/healthz',
+  operationId: 'getHealth',
+  security: publicAccess,
   tags: ['Service'],
   summary: 'The process is alive',
   responses: { 200: { description: 'The process answers.', content: { 'application/json': { schema: Health } } } },
@@ -28,6 +32,8 @@ registry.registerPath({
 registry.registerPath({
   method: 'get',
   path: '/readyz',
+  operationId: 'getReadiness',
+  security: publicAccess,
   tags: ['Service'],
   summary: 'The service can reach its database',
   responses: {

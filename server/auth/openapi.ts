@@ -18,6 +18,8 @@ registry.registerComponent('securitySchemes', 'consoleSession', {
     'The console session cookie set by POST /api/v1/session. Writes with it must also send `X-CSRF-Token` with the `csrfToken` from the sign-in answer or GET /api/v1/session.',
 });
 
+/** Routes anyone may call (health checks, sign-in, password reset, accepting an invitation): no credentials. */
+export const publicAccess: Record<string, string[]>[] = [];
 /** A calculation or read route: a key or the console session. */
 export const keyOrSession: Record<string, string[]>[] = [{ apiKey: [] }, { consoleSession: [] }];
 /** Console-only routes (managing keys, members, invitations). */

@@ -376,7 +376,7 @@ export const sweeps = pgTable(
     referenceOhm: doublePrecision('reference_ohm').notNull(),
     /** SWR under which a band counts as usable. */
     thresholdSwr: doublePrecision('threshold_swr').notNull(),
-    /** `sourceToLoad` or `loadToSource` when the sweep was moved through a line; null otherwise. */
+    /** `inputToLoad` or `loadToInput` when the sweep was moved through a line; null otherwise. */
     direction: text('direction'),
     /** The sections the sweep was moved through, from the transmitter end, as they were at upload (the moved points are stored, so later changes to a feed line or cable do not alter this sweep); null when not moved. */
     line: jsonb('line'),

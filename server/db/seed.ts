@@ -68,9 +68,9 @@ async function seedDemoStation(db: Db, organisationId: string, adminId: string):
     const referenceOhm = 50;
     // What an analyzer at the hut would have shown: the antenna carried down the feed line.
     const measured = demo.measuredAtHut
-      ? moveSweepThroughLine({ referenceOhm, points: demo.antenna }, (f) => sectionModels(feedline.sections, f, catalogOnly, 'line'), 'loadToSource').points
+      ? moveSweepThroughLine({ referenceOhm, points: demo.antenna }, (f) => sectionModels(feedline.sections, f, catalogOnly, 'line'), 'loadToInput').points
       : demo.antenna;
-    const move = demo.measuredAtHut ? { sections: feedline.sections, direction: 'sourceToLoad' as const, field: 'feedlineId' as const, single: false } : undefined;
+    const move = demo.measuredAtHut ? { sections: feedline.sections, direction: 'inputToLoad' as const, field: 'feedlineId' as const, single: false } : undefined;
     const { moved, analysis, thresholdSwr } = prepareSweep(measured, { referenceOhm, mask: DEMO_MASK, move, env: catalogOnly });
     await insertSweep(db, {
       organisationId,

@@ -43,7 +43,7 @@ export const problemErrorHandler: ErrorRequestHandler = (err, req, res, _next) =
     req.log?.warn({ err }, 'database statement timed out');
     apiError = new ApiError('unavailable', 'The database took too long to answer; retry shortly.', { headers: { 'Retry-After': String(DATABASE_RETRY_AFTER_S) } });
   } else {
-    apiError = fromParserError(err as HttpParserError) ?? new ApiError('internal', 'Something went wrong on our side; the request id in X-Request-Id helps us find it.');
+    apiError = fromParserError(err as HttpParserError) ?? new ApiError('internal', 'Something went wrong on our side; the request id in Request-Id helps us find it.');
   }
   if (apiError.status >= 500 && apiError.kind === 'internal') req.log?.error({ err }, 'unhandled error');
   if (res.headersSent) {
@@ -55,5 +55,6 @@ export const problemErrorHandler: ErrorRequestHandler = (err, req, res, _next) =
 };
 
 export const notFoundHandler: RequestHandler = (req, _res, next) => {
-  next(new ApiError('notFound', `No route for ${req.method} ${req.path}; see /api/v1/openapi.json for the available paths.`));
+  // originalUrl, not path: under a mount point `path` drops the prefix (`/v1/…` for `/api/v1/…`).
+  next(new ApiError('notFound', `No route for ${req.method} ${req.originalUrl.split('?', 1)[0]}; see /api/v1/openapi.json for the available paths.`));
 };

@@ -4,7 +4,7 @@ import type { Logger } from 'pino';
 
 declare module 'http' {
   interface IncomingMessage {
-    /** The request id echoed in `X-Request-Id` and written on every log line of the request. */
+    /** The request id sent back in `Request-Id` and written on every log line of the request. */
     id: string;
     /** A logger bound to the request id (made on first use). */
     log: Logger;
@@ -23,8 +23,8 @@ let minted = 0;
 /**
  * Request ids and the access log: one line per finished request with method, path (never the query
  * string, which can carry tokens), status and time; never headers, so keys, cookies and CSRF tokens
- * cannot reach the log. A caller's own `X-Request-Id` is echoed when it is safe to log; otherwise one
- * is minted. `req.log` is a child logger created only when a route logs something: on the hot path
+ * cannot reach the log. A caller's own id (`X-Request-Id`, or `Request-Id`) is echoed when it is a short
+ * printable token, safe to log; otherwise one is minted. Support finds a call by the `Request-Id` answered. `req.log` is a child logger created only when a route logs something: on the hot path
  * a request costs an id and, when info is enabled, one small line.
  */
 export function requestLog(app: Express, logger: Logger): RequestHandler {
@@ -37,10 +37,10 @@ export function requestLog(app: Express, logger: Logger): RequestHandler {
     },
   });
   return (req, res, next) => {
-    const incoming = req.headers['x-request-id'];
+    const incoming = req.headers['x-request-id'] ?? req.headers['request-id'];
     const id = typeof incoming === 'string' && REQUEST_ID_PATTERN.test(incoming) ? incoming : `${ID_PREFIX}${(++minted).toString(16).padStart(12, '0')}`;
     req.id = id;
-    res.setHeader('X-Request-Id', id);
+    res.setHeader('Request-Id', id);
     if (logger.isLevelEnabled('info')) {
       const started = performance.now();
       res.once('finish', () => {

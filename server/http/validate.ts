@@ -17,7 +17,7 @@ export function validateBody<S extends z.ZodType>(schema: S): RequestHandler {
     }
     const parsed = schema.safeParse(req.body ?? {});
     if (!parsed.success) {
-      next(apiErrorFromZod(parsed.error, 'body'));
+      next(apiErrorFromZod(parsed.error, 'body', { schema, input: req.body ?? {} }));
       return;
     }
     res.locals.body = parsed.data;
@@ -29,7 +29,7 @@ export function validateQuery<S extends z.ZodType>(schema: S): RequestHandler {
   return (req, res, next) => {
     const parsed = schema.safeParse(req.query);
     if (!parsed.success) {
-      next(apiErrorFromZod(parsed.error, 'query'));
+      next(apiErrorFromZod(parsed.error, 'query', { schema, input: req.query }));
       return;
     }
     res.locals.query = parsed.data;

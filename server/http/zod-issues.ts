@@ -1,17 +1,61 @@
 import { z } from 'zod';
+import { knownFieldsAt, nearMissHint } from '../../shared/schemas/field-hints.ts';
+import { isShapeIssue } from '../../shared/schemas/issues.ts';
 import { ApiError, type FieldIssue } from './problem.ts';
 
-/**
- * Zod issues that mean "this is not the shape we accept" (wrong type, unknown key, bad union) are 400;
- * issues that mean "well-formed, but the value cannot be computed" (range, custom rules) are 422.
- */
-const MALFORMED_CODES = new Set(['invalid_type', 'unrecognized_keys', 'invalid_union', 'invalid_key', 'invalid_element', 'invalid_format']);
+/** Unknown fields listed one by one per object; past this the rest are counted in one entry. */
+const MAX_UNKNOWN_LISTED = 10;
 
-export function fieldIssues(error: z.ZodError, prefix: (string | number)[] = []): FieldIssue[] {
-  return error.issues.map((issue) => ({
-    field: [...prefix, ...issue.path].map(String).join('.'),
-    message: issue.message,
-  }));
+/** The request's value at `path`; undefined for a field left out. */
+function valueAt(input: unknown, path: readonly PropertyKey[]): unknown {
+  let value = input;
+  for (const key of path) {
+    if (value === null || typeof value !== 'object' || !Object.hasOwn(value, key)) return undefined;
+    value = (value as Record<PropertyKey, unknown>)[key];
+  }
+  return value;
+}
+
+/**
+ * A zod issue reported as field entries. Unknown fields get an entry each, addressed to the field
+ * itself (`line.lengthMeters`, not `line`), with a hint when a known field is close; a field left out
+ * reads "required (…)" whatever zod called it.
+ */
+function entriesOf(issue: z.core.$ZodIssue, prefix: readonly PropertyKey[], context: IssueContext): FieldIssue[] {
+  const path = [...prefix, ...issue.path];
+  if (issue.code === 'unrecognized_keys') {
+    const known = context.schema ? knownFieldsAt(context.schema, issue.path) : new Set<string>();
+    const listed = issue.keys.slice(0, MAX_UNKNOWN_LISTED).map((key): FieldIssue => {
+      const hint = nearMissHint(key, known);
+      return { field: fieldName([...path, key]), message: hint ? `unknown field; ${hint}` : 'unknown field', ...(hint ? { hint } : {}) };
+    });
+    const more = issue.keys.length - listed.length;
+    return more > 0 ? [...listed, { field: fieldName(path), message: `and ${more} more unknown fields` }] : listed;
+  }
+  if (context.input !== undefined && (issue.code === 'invalid_type' || issue.code === 'invalid_value') && valueAt(context.input, issue.path) === undefined) {
+    const expected = issue.code === 'invalid_type' ? issue.expected : `one of ${issue.values.map((v) => JSON.stringify(v)).join(', ')}`;
+    return [{ field: fieldName(path), message: `required (${expected})` }];
+  }
+  const renamed = issue.code === 'invalid_value' ? RENAMED_BEFORE_V1[String(valueAt(context.input, issue.path))] : undefined;
+  if (renamed) return [{ field: fieldName(path), message: `${issue.message}; renamed to ${renamed} in 0.2.0`, hint: `did you mean ${renamed}?` }];
+  return [{ field: fieldName(path), message: issue.message }];
+}
+
+/** Enum values renamed before v1 was declared stable (CHANGELOG.md): the old name points to the new. */
+const RENAMED_BEFORE_V1: Record<string, string> = { sourceToLoad: 'inputToLoad', loadToSource: 'loadToInput' };
+
+function fieldName(path: readonly PropertyKey[]): string {
+  return path.map(String).join('.');
+}
+
+/** What the failed parse saw: the schema (for neighbours of unknown fields) and the input (for left-out fields). */
+export interface IssueContext {
+  schema?: z.ZodType;
+  input?: unknown;
+}
+
+export function fieldIssues(error: z.ZodError, prefix: (string | number)[] = [], context: IssueContext = {}): FieldIssue[] {
+  return error.issues.flatMap((issue) => entriesOf(issue, prefix, context));
 }
 
 /**
@@ -30,12 +74,16 @@ export function expandUnions(error: z.ZodError): z.ZodError {
   return new z.ZodError(issues);
 }
 
-/** Converts a zod failure into the ApiError the error middleware answers with. */
-export function apiErrorFromZod(zodError: z.ZodError, where: 'body' | 'query' | 'params' = 'body'): ApiError {
+/**
+ * Converts a zod failure into the ApiError the error middleware answers with: 400 when anything does
+ * not fit the schema's shape (see isShapeIssue), 422 when every issue is about a value that cannot be
+ * computed. The context (the schema that failed and the input it saw) sharpens the messages.
+ */
+export function apiErrorFromZod(zodError: z.ZodError, where: 'body' | 'query' | 'params' = 'body', context: IssueContext = {}): ApiError {
   const error = expandUnions(zodError);
   // A path parameter out of its range (an id too long) is a malformed address, not an uncomputable value.
-  const malformed = where === 'params' || error.issues.some((i) => MALFORMED_CODES.has(i.code));
-  const errors = fieldIssues(error);
+  const malformed = where === 'params' || error.issues.some(isShapeIssue);
+  const errors = fieldIssues(error, [], context);
   const detail = errors.map((e) => (e.field ? `${e.field}: ${e.message}` : e.message)).join('; ');
   const prefix = where === 'body' ? '' : `${where}: `;
   return new ApiError(malformed ? 'validation' : 'unprocessable', prefix + detail, { errors });

@@ -1,5 +1,9 @@
 import { OpenApiGeneratorV31 } from '@asteasolutions/zod-to-openapi';
+import type { RequestHandler } from 'express';
+import { publicAccess } from '../auth/openapi.ts';
 import { APP_VERSION } from '../config.ts';
+import { problemTypeTable } from '../http/problem.ts';
+import { z } from '../zod.ts';
 import { registry } from './registry.ts';
 // Imported for their side effect: every route module registers its paths on the shared registry.
 import '../api/health.routes.ts';
@@ -16,6 +20,52 @@ const WITH_BODY = {
   '415': 'The body is not in a media type this operation takes (see its request body).',
 } as const;
 const DATABASE = { '503': 'The database is unreachable or too slow to answer; retry after `Retry-After` seconds.' } as const;
+/** Every route refuses a declared body over the server's limit before reading it (server/http/body-size.ts). */
+const DECLARED_TOO_LARGE = { '413': 'The request declares a body larger than the server accepts; it is refused before it is read.' } as const;
+
+export const OPENAPI_PATH = '/api/v1/openapi.json';
+
+registry.registerPath({
+  method: 'get',
+  path: OPENAPI_PATH,
+  operationId: 'getOpenApiDocument',
+  tags: ['Service'],
+  summary: 'This OpenAPI 3.1 document',
+  description: 'Generated from the same zod schemas that validate requests; `/docs` renders it for people.',
+  security: publicAccess,
+  responses: { 200: { description: 'The document.', content: { 'application/json': { schema: z.object({ openapi: z.string() }).passthrough() } } } },
+});
+
+/** Resource tags in the order /docs shows them, each with a line on what it holds. */
+const TAGS = [
+  { name: 'Calculations', description: 'Single calculations: `POST /api/v1/<name>`, the same name a batch item gives as its `op`. Each costs one unit.' },
+  { name: 'Batch', description: 'Many calculations in one request, as JSON or streamed as NDJSON.' },
+  { name: 'Cables', description: 'The generic cable catalog and the organisation\'s own cables.' },
+  { name: 'Feed lines', description: 'Saved feed lines of ordered sections, and calculations through them.' },
+  { name: 'Sweeps', description: 'Analyzer sweeps (Touchstone, CSV, JSON) analysed and stored.' },
+  { name: 'Session', description: 'Console sign-in and password reset.' },
+  { name: 'Keys', description: 'API keys: issue, limit, revoke.' },
+  { name: 'Usage', description: 'Calculation units spent, by day.' },
+  { name: 'Members', description: 'Members of the organisation and their roles.' },
+  { name: 'Invitations', description: 'Invitations to join the organisation.' },
+  { name: 'Organisation', description: 'The organisation\'s name and default limits.' },
+  { name: 'Audit', description: 'Who changed what, and when.' },
+  { name: 'Local mail', description: 'Mail captured by the local SMTP server (local mode only).' },
+  { name: 'Service', description: 'Health checks and this document.' },
+];
+
+const DESCRIPTION = [
+  'Feed-line mismatch arithmetic: SWR, return loss, reflection, lossy lines and referral of readings between the two ends of a line.',
+  'SI units with the unit in the field name; complex values as `{ re, im }`; unbounded results (SWR of a total reflection, return loss of a perfect match) are `null`.',
+  'The two ends of a line are the **input** (the transmitter end) and the **load** (the antenna end): answers report `atInput` and `atLoad`, and a reading moves `inputToLoad` or `loadToInput`.',
+  '',
+  'Every answer carries a `Request-Id` (your own `X-Request-Id`, when it is a short printable token, is echoed); quote it when you ask for support.',
+  'Version 1 only grows: fields, operations and enum values may be added, nothing is renamed or removed; a retirement is announced with the `Deprecation` and `Sunset` header fields and in the changelog.',
+  '',
+  'Errors are RFC 9457 problem details (`application/problem+json`). 400 means the request does not fit the schema; 422 means well-formed values that cannot be computed. The problem types:',
+  '',
+  problemTypeTable(),
+].join('\n');
 
 /**
  * Every route validates its parameters, query and body with zod (server/http/validate.ts), so each
@@ -36,10 +86,11 @@ function withCommonAnswers(doc: Document): Document {
         ...(hasBody || params.length > 0 ? MALFORMED : {}),
         ...(hasBody || hasQuery ? UNCOMPUTABLE : {}),
         ...(hasBody ? WITH_BODY : {}),
-        ...(path.startsWith('/api/v1/') && path !== '/api/v1/openapi.json' ? DATABASE : {}),
+        ...(path.startsWith('/api/v1/') && path !== OPENAPI_PATH ? DATABASE : {}),
       };
       op.responses ??= {};
       for (const [status, description] of Object.entries(answers)) op.responses[status] ??= { description, content: PROBLEM };
+      if (!Object.keys(op.responses).some((status) => status.startsWith('4'))) Object.assign(op.responses, { '413': { description: DECLARED_TOO_LARGE['413'], content: PROBLEM } });
     }
   }
   return doc;
@@ -52,12 +103,17 @@ export function openApiDocument() {
     info: {
       title: 'Gammaline API',
       version: APP_VERSION,
-      description:
-        'Feed-line mismatch arithmetic: SWR, return loss, reflection, lossy lines and referral of readings between the two ends of a line. ' +
-        'SI units with the unit in the field name; complex values as `{ re, im }`; unbounded results (SWR of a total reflection, return loss of a perfect match) are `null`. ' +
-        'Errors are RFC 9457 problem details.',
+      description: DESCRIPTION,
+      contact: { name: 'Gammaline support', email: 'support@gammaline.example' },
+      license: { name: 'Proprietary: Gammaline terms of use', identifier: 'LicenseRef-Gammaline-Proprietary' },
     },
-    servers: [{ url: '/' }],
+    servers: [{ url: '/', description: 'The server that serves this document' }],
+    tags: TAGS,
   }));
   return cached;
 }
+
+/** `GET /api/v1/openapi.json`. */
+export const serveOpenApiDocument: RequestHandler = (_req, res) => {
+  res.json(openApiDocument());
+};

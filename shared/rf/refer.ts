@@ -19,8 +19,10 @@ export interface EndFigures {
 
 /** Both ends of a line after referral through its matched loss. */
 export interface ReferralResult {
-  source: EndFigures;
-  load: EndFigures;
+  /** At the line's input (the transmitter end). */
+  atInput: EndFigures;
+  /** At the load (the antenna end). */
+  atLoad: EndFigures;
   matchedLossDb: number;
   /** 10·log10(Pnet,source / Pnet,load); null when the load absorbs nothing (|Γ_load| = 1). */
   totalLossDb: number | null;
@@ -78,19 +80,19 @@ export function handbookTotalLossDb(matchedLossDb: number, loadReflectionMagnitu
  * Refers a reading between the two ends of a line by the matched-loss model of the amateur
  * handbooks: with the one-way power ratio a = 10^(−ML/10), |Γ_source| = a·|Γ_load|,
  * Pf_load = a·Pf_source and Pr_source = a·Pr_load.
- * @example referReading({ matchedLossDb: 3, direction: 'sourceToLoad', reading: { swr: 1.5 } }).load.swr // ≈ 2.33
+ * @example referReading({ matchedLossDb: 3, direction: 'inputToLoad', reading: { swr: 1.5 } }).atLoad.swr // ≈ 2.33
  */
 export function referReading(args: {
   matchedLossDb: number;
-  direction: 'sourceToLoad' | 'loadToSource';
+  direction: 'inputToLoad' | 'loadToInput';
   reading: Reading;
 }): ReferralResult {
   const ml = requireNonNegative(args.matchedLossDb, 'matchedLossDb', 'The matched loss');
-  if (args.direction !== 'sourceToLoad' && args.direction !== 'loadToSource') {
-    throw new RfInputError('direction', "direction must be 'sourceToLoad' (readings taken at the transmitter) or 'loadToSource' (readings at the antenna).");
+  if (args.direction !== 'inputToLoad' && args.direction !== 'loadToInput') {
+    throw new RfInputError('direction', "direction must be 'inputToLoad' (readings taken at the transmitter) or 'loadToInput' (readings at the antenna).");
   }
   const a = 10 ** (-ml / 10);
-  const toLoad = args.direction === 'sourceToLoad';
+  const toLoad = args.direction === 'inputToLoad';
   const reading = args.reading;
 
   if (readingKind(reading) === 'swr') {
@@ -108,12 +110,12 @@ export function referReading(args: {
       rhoLoad = rhoRead;
       rhoSource = a * rhoRead;
     }
-    const source = figures(rhoSource);
-    const load = figures(rhoLoad);
+    const atInput = figures(rhoSource);
+    const atLoad = figures(rhoLoad);
     // The figure that was read is echoed exactly rather than recomputed through |Γ|.
-    if (toLoad) source.swr = swr;
-    else load.swr = swr;
-    return { source, load, matchedLossDb: ml, totalLossDb: handbookTotalLossDb(ml, rhoLoad) };
+    if (toLoad) atInput.swr = swr;
+    else atLoad.swr = swr;
+    return { atInput, atLoad, matchedLossDb: ml, totalLossDb: handbookTotalLossDb(ml, rhoLoad) };
   }
 
   const powers = reading as { forwardPowerW: number; reflectedPowerW: number };
@@ -139,13 +141,13 @@ export function referReading(args: {
     pfSource = pf / a;
     prSource = a * pr;
   }
-  const source = withPowers(Math.sqrt(prSource / pfSource), pfSource, prSource);
-  const load = withPowers(Math.sqrt(prLoad / pfLoad), pfLoad, prLoad);
-  const netSource = source.netPowerW as number;
-  const netLoad = load.netPowerW as number;
+  const atInput = withPowers(Math.sqrt(prSource / pfSource), pfSource, prSource);
+  const atLoad = withPowers(Math.sqrt(prLoad / pfLoad), pfLoad, prLoad);
+  const netSource = atInput.netPowerW as number;
+  const netLoad = atLoad.netPowerW as number;
   return {
-    source,
-    load,
+    atInput,
+    atLoad,
     matchedLossDb: ml,
     totalLossDb: netLoad > 0 ? 10 * Math.log10(netSource / netLoad) : null,
     lineDissipationW: netSource - netLoad,

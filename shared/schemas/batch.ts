@@ -19,7 +19,7 @@ export const BatchItemSchema = z
   ])
   .meta({
     id: 'BatchItem',
-    description: 'One calculation: `op` names it (`mismatch`, `reflection`, `line` = POST /line, `refer` = POST /line/refer, `match`) and `input` is the body that endpoint takes.',
+    description: 'One calculation: `op` is the calculation\'s name as in its path (`mismatch` = POST /api/v1/mismatch, `reflection`, `line`, `refer`, `match`) and `input` is the body that endpoint takes.',
     example: { op: 'mismatch', input: { swr: 1.5 } },
   });
 
@@ -47,7 +47,7 @@ export const BatchRequestSchema = z
       items: [
         { op: 'mismatch', input: { forwardPowerW: 100, reflectedPowerW: 4 } },
         { op: 'line', input: { frequencyHz: 14_200_000, line: { cableId: 'rg-213', lengthM: 30 }, loadOhm: { re: 72, im: 18 } } },
-        { op: 'refer', input: { matchedLossDb: 1.2, direction: 'sourceToLoad', reading: { swr: 1.8 } } },
+        { op: 'refer', input: { matchedLossDb: 1.2, direction: 'inputToLoad', reading: { swr: 1.8 } } },
       ],
     },
   });

@@ -94,7 +94,7 @@ export const UpdateAccountCableSchema = z
     source: cableFields.source.optional(),
     notes: cableFields.notes.optional(),
   })
-  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one field to change' })
+  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one field to change', params: { shape: true } })
   .meta({ id: 'UpdateAccountCable', description: 'The id cannot change (feed lines refer to it).', example: { velocityFactor: 0.84 } });
 
 export const AccountCableIdParamsSchema = z.object({

@@ -9,6 +9,7 @@ import {
   ReturnLossOutput,
   SwrOutput,
 } from './common.ts';
+import { forwardIssues, shapeIssue } from './issues.ts';
 
 type RefineCtx = z.RefinementCtx;
 
@@ -20,18 +21,18 @@ function present(value: object, keys: readonly string[]): string[] {
 function exactlyOneGroup(value: object, groups: readonly (readonly string[])[], ctx: RefineCtx, what: string): void {
   const used = groups.filter((g) => present(value, g).length > 0);
   if (used.length === 0) {
-    ctx.addIssue({ code: 'custom', path: [], message: `give ${what}: one of ${groups.map((g) => `{ ${g.join(', ')} }`).join(', ')}` });
+    shapeIssue(ctx, [], `give ${what}: one of ${groups.map((g) => `{ ${g.join(', ')} }`).join(', ')}`);
     return;
   }
   if (used.length > 1) {
     const names = used.map((g) => g.join(' + '));
-    ctx.addIssue({ code: 'custom', path: [used[1]![0]!], message: `give only one input, not both ${names[0]} and ${names[1]}` });
+    shapeIssue(ctx, [used[1]![0]!], `give only one input, not both ${names[0]} and ${names[1]}`);
     return;
   }
   const group = used[0]!;
   for (const key of group) {
     if ((value as Record<string, unknown>)[key] === undefined) {
-      ctx.addIssue({ code: 'custom', path: [key], message: `${key} is required together with ${group.filter((k) => k !== key).join(', ')}` });
+      shapeIssue(ctx, [key], `${key} is required together with ${group.filter((k) => k !== key).join(', ')}`);
     }
   }
 }
@@ -57,7 +58,7 @@ export const MismatchRequestSchema = z
     mismatchLossDb: z.number().min(0).optional().meta({ description: 'Mismatch loss in dB (≥ 0).' }),
     reflectedPowerRatio: z.number().min(0).max(1).optional().meta({ description: 'Reflected / forward power, 0 to 1.' }),
     forwardPowerW: PowerW.optional().meta({ description: 'Forward power in watts, read at one point on the line.' }),
-    reflectedPowerW: PowerW.optional().meta({ description: 'Reflected power in watts, read at the same point (≤ forward).' }),
+    reflectedPowerW: PowerW.optional().meta({ description: 'Reflected power in watts, read at the same point (≤ forward).', example: 4 }),
     forwardVoltageV: z.number().min(0).optional().meta({ description: 'Forward-wave detector voltage (any consistent unit of volts).' }),
     reflectedVoltageV: z.number().min(0).optional().meta({ description: 'Reflected-wave detector voltage (≤ forward).' }),
     maxVoltageV: z.number().min(0).optional().meta({ description: 'Standing-wave voltage maximum along the line.' }),
@@ -145,23 +146,23 @@ export const LineSpecSchema = z
   })
   .superRefine((v, ctx) => {
     const lengths = present(v, ['lengthM', 'lengthFt']);
-    if (lengths.length === 0) ctx.addIssue({ code: 'custom', path: ['lengthM'], message: 'give the line length as lengthM or lengthFt' });
-    if (lengths.length === 2) ctx.addIssue({ code: 'custom', path: ['lengthFt'], message: 'give the length as lengthM or lengthFt, not both' });
+    if (lengths.length === 0) shapeIssue(ctx, ['lengthM'], 'give the line length as lengthM or lengthFt');
+    if (lengths.length === 2) shapeIssue(ctx, ['lengthFt'], 'give the length as lengthM or lengthFt, not both');
     const forms = (Object.keys(LINE_FORMS) as (keyof typeof LINE_FORMS)[]).filter((f) => present(v, LINE_FORMS[f]).length > 0);
     if (forms.length === 0) {
-      ctx.addIssue({ code: 'custom', path: [], message: 'describe the line by cableId, by impedanceOhm + velocityFactor + lossDbPer100m (or lossDbPer100ft), or by rlgc' });
+      shapeIssue(ctx, [], 'describe the line by cableId, by impedanceOhm + velocityFactor + lossDbPer100m (or lossDbPer100ft), or by rlgc');
       return;
     }
     if (forms.length > 1) {
-      ctx.addIssue({ code: 'custom', path: [LINE_FORMS[forms[1]!][0]], message: `describe the line one way only, not both by ${forms[0]} and by ${forms[1]}` });
+      shapeIssue(ctx, [LINE_FORMS[forms[1]!][0]], `describe the line one way only, not both by ${forms[0]} and by ${forms[1]}`);
       return;
     }
     if (forms[0] === 'spec') {
-      if (v.impedanceOhm === undefined) ctx.addIssue({ code: 'custom', path: ['impedanceOhm'], message: 'impedanceOhm is required with velocityFactor and loss' });
-      if (v.velocityFactor === undefined) ctx.addIssue({ code: 'custom', path: ['velocityFactor'], message: 'velocityFactor is required with impedanceOhm and loss' });
+      if (v.impedanceOhm === undefined) shapeIssue(ctx, ['impedanceOhm'], 'impedanceOhm is required with velocityFactor and loss');
+      if (v.velocityFactor === undefined) shapeIssue(ctx, ['velocityFactor'], 'velocityFactor is required with impedanceOhm and loss');
       const losses = present(v, ['lossDbPer100m', 'lossDbPer100ft']);
-      if (losses.length === 0) ctx.addIssue({ code: 'custom', path: ['lossDbPer100m'], message: 'give the matched loss as lossDbPer100m or lossDbPer100ft (0 for a lossless line)' });
-      if (losses.length === 2) ctx.addIssue({ code: 'custom', path: ['lossDbPer100ft'], message: 'give the loss as lossDbPer100m or lossDbPer100ft, not both' });
+      if (losses.length === 0) shapeIssue(ctx, ['lossDbPer100m'], 'give the matched loss as lossDbPer100m or lossDbPer100ft (0 for a lossless line)');
+      if (losses.length === 2) shapeIssue(ctx, ['lossDbPer100ft'], 'give the loss as lossDbPer100m or lossDbPer100ft, not both');
     }
   })
   .meta({
@@ -193,15 +194,15 @@ export const FeedlineSectionSchema = z
       for (const field of LINE_FIELDS) {
         if (field === 'impedanceOhm' || field === 'maxVoltageRmsV') continue;
         if (v[field] !== undefined) {
-          ctx.addIssue({ code: 'custom', path: [field], message: `a connector section has insertionLossDb, label and optionally impedanceOhm and maxVoltageRmsV only; put ${field} in a cable section of its own` });
+          shapeIssue(ctx, [field], `a connector section has insertionLossDb, label and optionally impedanceOhm and maxVoltageRmsV only; put ${field} in a cable section of its own`);
         }
       }
-      if (v.label === undefined) ctx.addIssue({ code: 'custom', path: ['label'], message: 'name the connector or adapter in label, e.g. "PL-259 to N adapter"' });
+      if (v.label === undefined) shapeIssue(ctx, ['label'], 'name the connector or adapter in label, e.g. "PL-259 to N adapter"');
       return;
     }
     const { label: _label, insertionLossDb: _loss, ...line } = v;
     const parsed = LineSpecSchema.safeParse(line);
-    if (!parsed.success) for (const issue of parsed.error.issues) ctx.addIssue({ code: 'custom', path: issue.path, message: issue.message });
+    if (!parsed.success) forwardIssues(ctx, parsed.error.issues);
   })
   .meta({
     id: 'FeedlineSection',
@@ -285,8 +286,8 @@ export const FeedlineLineResultSchema = LineResultSchema.extend({
 export const ReadingSchema = z
   .strictObject({
     swr: z.number().min(1).optional().meta({ description: 'SWR read at this end.' }),
-    forwardPowerW: PowerW.optional(),
-    reflectedPowerW: PowerW.optional(),
+    forwardPowerW: PowerW.optional().meta({ description: 'Forward power read at this end, W.', example: 100 }),
+    reflectedPowerW: PowerW.optional().meta({ description: 'Reflected power read at this end (≤ forward), W.', example: 11 }),
   })
   .superRefine((v, ctx) => exactlyOneGroup(v, [['swr'], ['forwardPowerW', 'reflectedPowerW']], ctx, 'a reading'))
   .meta({ id: 'Reading', description: '`{ swr }` or `{ forwardPowerW, reflectedPowerW }`.', example: { forwardPowerW: 100, reflectedPowerW: 11 } });
@@ -296,20 +297,20 @@ export const ReferRequestSchema = z
     frequencyHz: FrequencyHz.optional(),
     line: LineOrSectionsSchema.optional(),
     matchedLossDb: z.number().min(0).optional().meta({ description: 'The line\'s matched loss, instead of `frequencyHz` + `line`.' }),
-    direction: z.enum(['sourceToLoad', 'loadToSource']).meta({ description: '`sourceToLoad`: the reading was taken at the transmitter; `loadToSource`: at the antenna.' }),
+    direction: z.enum(['inputToLoad', 'loadToInput']).meta({ description: '`inputToLoad`: the reading was taken at the transmitter; `loadToInput`: at the antenna.' }),
     reading: ReadingSchema,
   })
   .superRefine((v, ctx) => {
     const byLine = v.frequencyHz !== undefined || v.line !== undefined;
     if (v.matchedLossDb !== undefined && byLine) {
-      ctx.addIssue({ code: 'custom', path: ['matchedLossDb'], message: 'give matchedLossDb or frequencyHz + line, not both' });
+      shapeIssue(ctx, ['matchedLossDb'], 'give matchedLossDb or frequencyHz + line, not both');
     } else if (v.matchedLossDb === undefined && !byLine) {
-      ctx.addIssue({ code: 'custom', path: ['matchedLossDb'], message: 'give the line: matchedLossDb, or frequencyHz + line' });
+      shapeIssue(ctx, ['matchedLossDb'], 'give the line: matchedLossDb, or frequencyHz + line');
     } else if (byLine && (v.frequencyHz === undefined || v.line === undefined)) {
-      ctx.addIssue({ code: 'custom', path: [v.line === undefined ? 'line' : 'frequencyHz'], message: 'frequencyHz and line go together' });
+      shapeIssue(ctx, [v.line === undefined ? 'line' : 'frequencyHz'], 'frequencyHz and line go together');
     }
   })
-  .meta({ id: 'ReferRequest', example: { frequencyHz: 7_100_000, line: { cableId: 'rg-58', lengthM: 40 }, direction: 'sourceToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 11 } } });
+  .meta({ id: 'ReferRequest', example: { frequencyHz: 7_100_000, line: { cableId: 'rg-58', lengthM: 40 }, direction: 'inputToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 11 } } });
 
 const EndFiguresSchema = z
   .object({
@@ -324,8 +325,8 @@ const EndFiguresSchema = z
 
 export const ReferResultSchema = z
   .object({
-    source: EndFiguresSchema.meta({ description: 'At the transmitter end.' }),
-    load: EndFiguresSchema.meta({ description: 'At the antenna end.' }),
+    atInput: EndFiguresSchema.meta({ description: 'At the line\'s input, the transmitter end.' }),
+    atLoad: EndFiguresSchema.meta({ description: 'At the load, the antenna end.' }),
     matchedLossDb: z.number().meta({ description: 'Matched loss of the line at the frequency (dB), as given or from the line.' }),
     totalLossDb: z
       .number()
@@ -370,7 +371,7 @@ export const CableAttenuationQuerySchema = z
     lengthFt: z.coerce.number().min(0).optional().meta({ description: 'Length in feet (for `lossDb`).' }),
   })
   .superRefine((v, ctx) => {
-    if (v.lengthM !== undefined && v.lengthFt !== undefined) ctx.addIssue({ code: 'custom', path: ['lengthFt'], message: 'give lengthM or lengthFt, not both' });
+    if (v.lengthM !== undefined && v.lengthFt !== undefined) shapeIssue(ctx, ['lengthFt'], 'give lengthM or lengthFt, not both');
   });
 
 export const CableAttenuationSchema = z

@@ -2,7 +2,7 @@ import { z } from 'zod';
 import { FrequencyHz, ImpedanceSchema, PowerW } from './common.ts';
 import { FeedlineSectionSchema, LineSectionsSchema, ReadingSchema, ReferResultSchema } from './calc.ts';
 
-// Sections are described in calc.ts, beside LineSpec: POST /line and /line/refer take them inline too.
+// Sections are described in calc.ts, beside LineSpec: POST /line and /refer take them inline too.
 export { FeedlineLineResultSchema, FeedlineSectionSchema, isConnectorSection, MAX_FEEDLINE_SECTIONS, type FeedlineSection } from './calc.ts';
 
 const FEEDLINE_EXAMPLE = {
@@ -29,7 +29,7 @@ export const UpdateFeedlineSchema = z
     notes: z.string().max(2000).optional(),
     sections: LineSectionsSchema.optional().meta({ description: 'Replaces all sections.' }),
   })
-  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one of name, notes, sections' })
+  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one of name, notes, sections', params: { shape: true } })
   .meta({ id: 'UpdateFeedline', example: { name: 'Hut to mast (new N connectors)' } });
 
 export const FeedlineSchema = z
@@ -59,10 +59,10 @@ export const FeedlineLineRequestSchema = z
 export const FeedlineReferRequestSchema = z
   .strictObject({
     frequencyHz: FrequencyHz,
-    direction: z.enum(['sourceToLoad', 'loadToSource']).meta({ description: '`sourceToLoad`: the reading was taken at the transmitter; `loadToSource`: at the antenna.' }),
+    direction: z.enum(['inputToLoad', 'loadToInput']).meta({ description: '`inputToLoad`: the reading was taken at the transmitter; `loadToInput`: at the antenna.' }),
     reading: ReadingSchema,
   })
-  .meta({ id: 'FeedlineReferRequest', example: { frequencyHz: 7_100_000, direction: 'sourceToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 6 } } });
+  .meta({ id: 'FeedlineReferRequest', example: { frequencyHz: 7_100_000, direction: 'inputToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 6 } } });
 
 export const FeedlineReferResultSchema = ReferResultSchema.extend({
   sectionsMatchedLossDb: z.array(z.number()).meta({ description: 'Matched loss of each section at the frequency, from the transmitter end; they add up to `matchedLossDb`.' }),

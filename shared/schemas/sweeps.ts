@@ -1,16 +1,17 @@
 import { z } from 'zod';
 import { ComplexSchema, ImpedanceSchema, ReflectionDetailSchema, ReturnLossOutput, SwrOutput } from './common.ts';
 import { FeedlineSectionSchema, LineOrSectionsSchema } from './calc.ts';
+import { shapeIssue } from './issues.ts';
 
 /** Most points a JSON upload may carry (the body limit allows about this many); larger sweeps go up as files. */
 export const MAX_JSON_SWEEP_POINTS = 20_000;
 
 export const SweepDirectionSchema = z
-  .enum(['sourceToLoad', 'loadToSource'])
+  .enum(['inputToLoad', 'loadToInput'])
   .meta({
     id: 'SweepDirection',
-    description: '`sourceToLoad`: the sweep was measured at the transmitter end; it is moved to the antenna. `loadToSource`: measured at the antenna; the result is what the transmitter end sees.',
-    example: 'sourceToLoad',
+    description: '`inputToLoad`: the sweep was measured at the transmitter end; it is moved to the antenna. `loadToInput`: measured at the antenna; the result is what the transmitter end sees.',
+    example: 'inputToLoad',
   });
 
 export const SweepMaskSchema = z
@@ -22,8 +23,8 @@ export const SweepMaskSchema = z
   })
   .superRefine((m, ctx) => {
     const both = m.maxSwr !== undefined && m.minReturnLossDb !== undefined;
-    if (both) ctx.addIssue({ code: 'custom', path: ['minReturnLossDb'], message: 'give maxSwr or minReturnLossDb, not both' });
-    if (m.maxSwr === undefined && m.minReturnLossDb === undefined) ctx.addIssue({ code: 'custom', path: [], message: 'the mask needs maxSwr or minReturnLossDb' });
+    if (both) shapeIssue(ctx, ['minReturnLossDb'], 'give maxSwr or minReturnLossDb, not both');
+    if (m.maxSwr === undefined && m.minReturnLossDb === undefined) shapeIssue(ctx, [], 'the mask needs maxSwr or minReturnLossDb');
     if (m.startHz !== undefined && m.stopHz !== undefined && m.stopHz < m.startHz) ctx.addIssue({ code: 'custom', path: ['stopHz'], message: 'stopHz is below startHz; give the range from low to high' });
   })
   .meta({ id: 'SweepMask', description: 'An acceptance figure over a frequency range: `{ maxSwr }` or `{ minReturnLossDb }`, optionally with `startHz`/`stopHz`.', example: { maxSwr: 1.5, startHz: 7_000_000, stopHz: 7_200_000 } });
@@ -45,12 +46,12 @@ type SweepOptionValues = { line?: unknown; feedlineId?: unknown; direction?: unk
 
 /** The rules that tie the option fields together, shared by the JSON and multipart forms. */
 export function checkSweepOptions(v: SweepOptionValues, ctx: z.RefinementCtx): void {
-  if (v.line !== undefined && v.feedlineId !== undefined) ctx.addIssue({ code: 'custom', path: ['feedlineId'], message: 'give line or feedlineId, not both' });
+  if (v.line !== undefined && v.feedlineId !== undefined) shapeIssue(ctx, ['feedlineId'], 'give line or feedlineId, not both');
   const moved = v.line !== undefined || v.feedlineId !== undefined;
   if (moved && v.direction === undefined) {
-    ctx.addIssue({ code: 'custom', path: ['direction'], message: 'say where the sweep was measured: "sourceToLoad" (at the transmitter end) or "loadToSource" (at the antenna)' });
+    shapeIssue(ctx, ['direction'], 'say where the sweep was measured: "inputToLoad" (at the transmitter end) or "loadToInput" (at the antenna)');
   }
-  if (!moved && v.direction !== undefined) ctx.addIssue({ code: 'custom', path: ['direction'], message: 'direction needs a line or feedlineId to move the sweep through' });
+  if (!moved && v.direction !== undefined) shapeIssue(ctx, ['direction'], 'direction needs a line or feedlineId to move the sweep through');
 }
 
 export const SweepPointInputSchema = z
@@ -60,7 +61,7 @@ export const SweepPointInputSchema = z
     reflection: ComplexSchema.optional().meta({ description: 'Measured Γ against `referenceOhm`, instead of `loadOhm`.' }),
   })
   .superRefine((p, ctx) => {
-    if ((p.loadOhm === undefined) === (p.reflection === undefined)) ctx.addIssue({ code: 'custom', path: ['loadOhm'], message: 'give loadOhm or reflection for each point (one of them)' });
+    if ((p.loadOhm === undefined) === (p.reflection === undefined)) shapeIssue(ctx, ['loadOhm'], 'give loadOhm or reflection for each point (one of them)');
   })
   .meta({ id: 'SweepPointInput', example: { frequencyHz: 7_100_000, loadOhm: { re: 52.3, im: -4.1 } } });
 
@@ -99,7 +100,7 @@ export const SweepMultipartSchema = z
     thresholdSwr: z.string().optional().meta({ description: 'A number, e.g. `2`.' }),
     line: z.string().optional().meta({ description: 'JSON of a `SweepLine`, e.g. `{"cableId":"rg-213","lengthM":28}`.' }),
     feedlineId: z.string().optional(),
-    direction: z.string().optional().meta({ description: '`sourceToLoad` or `loadToSource`.' }),
+    direction: z.string().optional().meta({ description: '`inputToLoad` or `loadToInput`.' }),
     mask: z.string().optional().meta({ description: 'JSON of a `SweepMask`, e.g. `{"maxSwr":1.5}`.' }),
   })
   .meta({ id: 'CreateSweepMultipart', description: 'Multipart form: the file in field `file`, the options as text fields (JSON text for `line` and `mask`).' });

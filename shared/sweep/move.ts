@@ -7,10 +7,10 @@ import { reflectionAgainst, type Sweep, type SweepPoint, type SweepPointInput } 
 
 /**
  * Which way a sweep is moved along the feed line:
- * - `loadToSource`: the sweep was measured at the antenna; give what the transmitter end sees.
- * - `sourceToLoad`: the sweep was measured at the transmitter end; give what the antenna is.
+ * - `loadToInput`: the sweep was measured at the antenna; give what the transmitter end sees.
+ * - `inputToLoad`: the sweep was measured at the transmitter end; give what the antenna is.
  */
-export type SweepDirection = 'sourceToLoad' | 'loadToSource';
+export type SweepDirection = 'inputToLoad' | 'loadToInput';
 
 /**
  * The feed line at one frequency, as sections listed from the source (transmitter) to the load.
@@ -107,36 +107,36 @@ function acrossSection(
 }
 
 /**
- * Moves a sweep along a feed line of sections listed source→load. `loadToSource` transforms each
+ * Moves a sweep along a feed line of sections listed source→load. `loadToInput` transforms each
  * measured load forward through the line, Γ_in = Γ_L·e^{−2γl} section by section from the load end
- * (what the transmitter end sees); `sourceToLoad` is the exact inverse (de-embedding),
+ * (what the transmitter end sees); `inputToLoad` is the exact inverse (de-embedding),
  * Γ_L = Γ_in·e^{+2γl} against each section's Z0, section by section from the source. `lineAt` is
  * called once per point because γ depends on frequency. Reflections in the result are against the
  * sweep's `referenceOhm`; an open circuit stays `loadOhm: null`. A point whose de-embedded load
  * would be non-passive throws RfInputError (field `line`) naming the frequency; line models are
  * validated like transformLine's (RfInputError with `line.<k>.…` fields).
- * @example moveSweepThroughLine(sweep, (f) => [lineFromCable(findCable('rg-213')!, 30, f)], 'loadToSource')
+ * @example moveSweepThroughLine(sweep, (f) => [lineFromCable(findCable('rg-213')!, 30, f)], 'loadToInput')
  */
 export function moveSweepThroughLine(
   sweep: { referenceOhm: number; points: readonly SweepPointInput[] },
   lineAt: LineAtFrequency,
   direction: SweepDirection,
 ): Sweep {
-  if (direction !== 'sourceToLoad' && direction !== 'loadToSource') {
-    throw new RfInputError('direction', 'direction must be "sourceToLoad" (measured at the transmitter end) or "loadToSource" (measured at the antenna).');
+  if (direction !== 'inputToLoad' && direction !== 'loadToInput') {
+    throw new RfInputError('direction', 'direction must be "inputToLoad" (measured at the transmitter end) or "loadToInput" (measured at the antenna).');
   }
   if (typeof lineAt !== 'function') throw new RfInputError('line', 'Give the feed line as a function of frequency returning its sections.');
   const r = sweep.referenceOhm;
   if (typeof r !== 'number' || !Number.isFinite(r) || r <= 0) {
     throw new RfInputError('referenceOhm', 'referenceOhm must be greater than 0 ohm (for example 50).');
   }
-  const towardSource = direction === 'loadToSource';
+  const towardSource = direction === 'loadToInput';
   const out: SweepPoint[] = new Array<SweepPoint>(sweep.points.length);
   for (let i = 0; i < sweep.points.length; i++) {
     const p = sweep.points[i] as SweepPointInput;
     const built = lineAt(p.frequencyHz);
     const sections: readonly LineModel[] = Array.isArray(built) ? built : [built as LineModel];
-    if (sections.length === 0) throw new RfInputError('line', 'Give at least one line section, listed from the source end.');
+    if (sections.length === 0) throw new RfInputError('line', 'Give at least one line section, listed from the transmitter end.');
     let z: Complex | null = p.loadOhm === null ? null : requireComplex(p.loadOhm, `points.${i}.loadOhm`);
     if (towardSource) {
       for (let k = sections.length - 1; k >= 0; k--) z = acrossSection(sections[k] as LineModel, z, true, p.frequencyHz, k);

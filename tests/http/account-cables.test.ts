@@ -122,7 +122,7 @@ describe('account cables work everywhere a catalog cable does', () => {
     const batch = await api()
       .post('/api/v1/batch')
       .set(ctx.auth)
-      .send({ items: [{ op: 'refer', input: { frequencyHz: 14_200_000, line: { cableId: RIDGE_REEL.id, lengthM: 40 }, direction: 'sourceToLoad', reading: { swr: 1.5 } } }] })
+      .send({ items: [{ op: 'refer', input: { frequencyHz: 14_200_000, line: { cableId: RIDGE_REEL.id, lengthM: 40 }, direction: 'inputToLoad', reading: { swr: 1.5 } } }] })
       .expect(200);
     expect(batch.body.results[0].output.matchedLossDb).toBeCloseTo(LOSS_AT_14_2_MHZ * 0.4, 12);
 
@@ -130,7 +130,7 @@ describe('account cables work everywhere a catalog cable does', () => {
     const through = await api().post(`/api/v1/feedlines/${feedline.body.id}/line`).set(ctx.auth).send({ frequencyHz: 14_200_000, loadOhm: 50 }).expect(200);
     expect(through.body.matchedLossDb).toBeCloseTo(LOSS_AT_14_2_MHZ * 0.4, 12);
 
-    const sweep = await api().post('/api/v1/sweeps').set(ctx.auth).send({ points: [{ frequencyHz: 14_200_000, loadOhm: 50 }], line: { cableId: RIDGE_REEL.id, lengthM: 40 }, direction: 'loadToSource' }).expect(201);
+    const sweep = await api().post('/api/v1/sweeps').set(ctx.auth).send({ points: [{ frequencyHz: 14_200_000, loadOhm: 50 }], line: { cableId: RIDGE_REEL.id, lengthM: 40 }, direction: 'loadToInput' }).expect(201);
     expect(sweep.body.points[0].swr).toBeCloseTo(1, 12);
     await api().delete(`/api/v1/feedlines/${feedline.body.id}`).set(ctx.auth).expect(204);
   });

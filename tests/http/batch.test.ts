@@ -45,7 +45,7 @@ function mixedItem(i: number): { op: string; input: Record<string, unknown> } {
     case 1:
       return { op: 'reflection', input: { loadOhm: { re: 50 + (i % 100), im: -20 } } };
     case 2:
-      return { op: 'refer', input: { matchedLossDb: 1.2, direction: 'sourceToLoad', reading: { swr: 1.5 } } };
+      return { op: 'refer', input: { matchedLossDb: 1.2, direction: 'inputToLoad', reading: { swr: 1.5 } } };
     case 3:
       return { op: 'match', input: { frequencyHz: 3_650_000, loadOhm: { re: 12, im: -30 } } };
     default:
@@ -78,7 +78,7 @@ describe('JSON batches', () => {
     });
     for (const i of [2, 3, 4, 5, 6]) {
       const item = items[i]!;
-      const path = { mismatch: '/mismatch', reflection: '/reflection', line: '/line', refer: '/line/refer', match: '/match' }[item.op as 'line'];
+      const path = { mismatch: '/mismatch', reflection: '/reflection', line: '/line', refer: '/refer', match: '/match' }[item.op as 'line'];
       const single = await request(ctx.app).post(`/api/v1${path}`).set(ctx.auth).send(item.input).expect(200);
       expect(results[i]!.output).toEqual(single.body);
     }

@@ -96,8 +96,8 @@ describe('saving feed lines', () => {
 });
 
 describe('bad feed lines are problems that name the field', () => {
-  it('wants a label on a connector (422)', async () => {
-    const res = await api().post('/api/v1/feedlines').set(ctx.auth).send({ name: 'x', sections: [TWO_SECTIONS[0], { insertionLossDb: 0.1 }] }).expect(422);
+  it('wants a label on a connector (400: a required field of the connector form)', async () => {
+    const res = await api().post('/api/v1/feedlines').set(ctx.auth).send({ name: 'x', sections: [TWO_SECTIONS[0], { insertionLossDb: 0.1 }] }).expect(400);
     expect(res.body.errors).toContainEqual(expect.objectContaining({ field: 'sections.1.label' }));
   });
 
@@ -108,11 +108,11 @@ describe('bad feed lines are problems that name the field', () => {
     expect(res.body.errors).toContainEqual(expect.objectContaining({ field: 'sections.1.lengthM' }));
   });
 
-  it('refuses an unknown cable id (422) and a length given twice', async () => {
+  it('refuses an unknown cable id (422) and a length given twice (400)', async () => {
     const unknown = await api().post('/api/v1/feedlines').set(ctx.auth).send({ name: 'x', sections: [{ cableId: 'no-such-cable', lengthM: 3 }] }).expect(422);
     expect(unknown.body.errors).toEqual([expect.objectContaining({ field: 'sections.0.cableId' })]);
     const twice = await api().post('/api/v1/feedlines').set(ctx.auth).send({ name: 'x', sections: [{ cableId: 'rg-58', lengthM: 3, lengthFt: 10 }] });
-    expect(twice.status).toBe(422);
+    expect(twice.status).toBe(400);
     expect(twice.body.errors).toContainEqual(expect.objectContaining({ field: 'sections.0.lengthFt' }));
   });
 
@@ -171,25 +171,25 @@ describe('calculations through a saved feed line', () => {
     expect(res.body.cautions[0]).toMatch(/^Section 2: Caution: the computed RMS voltage on Wall feed-through reaches/);
   });
 
-  it('refers a reading through the sum of the sections\' matched losses, as POST /line/refer does', async () => {
+  it('refers a reading through the sum of the sections\' matched losses, as POST /refer does', async () => {
     const id = await save([TWO_SECTIONS[0], { insertionLossDb: 0.1, label: 'N barrel' }, TWO_SECTIONS[1]]);
     const reading = { forwardPowerW: 100, reflectedPowerW: 5 };
-    const res = await api().post(`/api/v1/feedlines/${id}/refer`).set(ctx.auth).send({ frequencyHz, direction: 'sourceToLoad', reading }).expect(200);
+    const res = await api().post(`/api/v1/feedlines/${id}/refer`).set(ctx.auth).send({ frequencyHz, direction: 'inputToLoad', reading }).expect(200);
     const near = lineFromCable(findCable('rg-213')!, 20, frequencyHz);
     const far = lineFromCable(findCable('rg-58')!, 10, frequencyHz);
     const matched = (m: typeof near) => 20 * Math.log10(Math.E) * m.propagationPerM.re * m.lengthM;
     expect(res.body.sectionsMatchedLossDb[0]).toBeCloseTo(matched(near), 12);
     expect(res.body.sectionsMatchedLossDb[1]).toBeCloseTo(0.1, 12);
     expect(res.body.matchedLossDb).toBeCloseTo(matched(near) + 0.1 + matched(far), 12);
-    const expected = referReading({ matchedLossDb: res.body.matchedLossDb, direction: 'sourceToLoad', reading });
-    expect(res.body.load.swr).toBeCloseTo(expected.load.swr!, 12);
-    const single = await api().post('/api/v1/line/refer').set(ctx.auth).send({ matchedLossDb: res.body.matchedLossDb, direction: 'sourceToLoad', reading }).expect(200);
-    expect(res.body.load).toEqual(single.body.load);
+    const expected = referReading({ matchedLossDb: res.body.matchedLossDb, direction: 'inputToLoad', reading });
+    expect(res.body.atLoad.swr).toBeCloseTo(expected.atLoad.swr!, 12);
+    const single = await api().post('/api/v1/refer').set(ctx.auth).send({ matchedLossDb: res.body.matchedLossDb, direction: 'inputToLoad', reading }).expect(200);
+    expect(res.body.atLoad).toEqual(single.body.atLoad);
   });
 
   it('answers readings the line cannot explain with a 422 problem', async () => {
     const id = await save([{ cableId: 'rg-58', lengthM: 60 }]);
-    const res = await api().post(`/api/v1/feedlines/${id}/refer`).set(ctx.auth).send({ frequencyHz: 145e6, direction: 'sourceToLoad', reading: { swr: 3 } }).expect(422);
+    const res = await api().post(`/api/v1/feedlines/${id}/refer`).set(ctx.auth).send({ frequencyHz: 145e6, direction: 'inputToLoad', reading: { swr: 3 } }).expect(422);
     expect(res.body.errors[0].field).toBe('reading.swr');
   });
 
@@ -201,7 +201,7 @@ describe('calculations through a saved feed line', () => {
   });
 });
 
-describe('sections given inline to POST /line, /line/refer and batch', () => {
+describe('sections given inline to POST /line, /refer and batch', () => {
   const frequencyHz = 14_200_000;
   const loadOhm = { re: 72, im: 18 };
   const SECTIONS = [TWO_SECTIONS[0], { insertionLossDb: 0.25, label: 'N barrel', maxVoltageRmsV: 20 }, TWO_SECTIONS[1]];
@@ -218,8 +218,8 @@ describe('sections given inline to POST /line, /line/refer and batch', () => {
   it('refers a reading through inline sections exactly as through the saved feed line', async () => {
     const id = await save(SECTIONS);
     const reading = { swr: 1.8 };
-    const saved = await api().post(`/api/v1/feedlines/${id}/refer`).set(ctx.auth).send({ frequencyHz, direction: 'sourceToLoad', reading }).expect(200);
-    const inline = await api().post('/api/v1/line/refer').set(ctx.auth).send({ frequencyHz, line: SECTIONS, direction: 'sourceToLoad', reading }).expect(200);
+    const saved = await api().post(`/api/v1/feedlines/${id}/refer`).set(ctx.auth).send({ frequencyHz, direction: 'inputToLoad', reading }).expect(200);
+    const inline = await api().post('/api/v1/refer').set(ctx.auth).send({ frequencyHz, line: SECTIONS, direction: 'inputToLoad', reading }).expect(200);
     expect(inline.body).toEqual(saved.body);
     expect(inline.body.sectionsMatchedLossDb[1]).toBe(0.25);
   });
@@ -232,7 +232,7 @@ describe('sections given inline to POST /line, /line/refer and batch', () => {
       .expect(200);
     expect(res.body.results[0].output.sections).toHaveLength(3);
     expect(res.body.results[1].problem.errors[0].field).toBe('items.1.input.line.1.cableId');
-    const single = await api().post('/api/v1/line').set(ctx.auth).send({ frequencyHz, line: [{ insertionLossDb: 0.1 }], loadOhm }).expect(422);
+    const single = await api().post('/api/v1/line').set(ctx.auth).send({ frequencyHz, line: [{ insertionLossDb: 0.1 }], loadOhm }).expect(400);
     expect(single.body.errors.map((e: { field: string }) => e.field)).toContain('line.0.label');
     await api().post('/api/v1/line').set(ctx.auth).send({ frequencyHz, line: [], loadOhm }).expect(422);
   });

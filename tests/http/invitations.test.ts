@@ -176,6 +176,8 @@ describe('captured mail', () => {
         .expect(200);
       const cookie = signIn.headers['set-cookie'] as unknown as string[];
       await request(prod.app).get('/api/v1/mail').set('X-Forwarded-Proto', 'https').set('Cookie', cookie).expect(404);
+      // Not "405, it takes GET": in production the path does not exist at all.
+      await request(prod.app).post('/api/v1/mail').set('X-Forwarded-Proto', 'https').set('Cookie', cookie).expect(404);
       await request(prod.app).get('/api/v1/keys').set('X-Forwarded-Proto', 'https').set('Cookie', cookie).expect(200);
     } finally {
       await prod.close();

@@ -173,7 +173,7 @@ describe('changing limits', () => {
     const res = await developer.patch(`/api/v1/keys/${created.body.key.id}`).send({ name: 'new name', note: 'moved to the tower PC' }).expect(200);
     expect(res.body).toMatchObject({ name: 'new name', note: 'moved to the tower PC' });
     await developer.patch(`/api/v1/keys/${created.body.key.id}`).send({ dailyQuota: 1 }).expect(403);
-    await developer.patch(`/api/v1/keys/${created.body.key.id}`).send({}).expect(422);
+    await developer.patch(`/api/v1/keys/${created.body.key.id}`).send({}).expect(400);
   });
 });
 

@@ -28,11 +28,16 @@ describe('the platform', () => {
       expect(res.body).toEqual({ status: 'ready', database: 'up' });
     });
 
-    it('echoes a safe caller request id and mints one otherwise', async () => {
+    it('echoes a safe caller request id in Request-Id and mints one otherwise', async () => {
       const own = await request(ctx.app).get('/healthz').set('X-Request-Id', 'abc-123');
-      expect(own.headers['x-request-id']).toBe('abc-123');
+      expect(own.headers['request-id']).toBe('abc-123');
+      const plain = await request(ctx.app).get('/healthz').set('Request-Id', 'logbook.42');
+      expect(plain.headers['request-id']).toBe('logbook.42');
       const minted = await request(ctx.app).get('/healthz').set('X-Request-Id', 'bad id with spaces');
-      expect(minted.headers['x-request-id']).toMatch(/^[0-9a-f-]{36}$/);
+      expect(minted.headers['request-id']).toMatch(/^[0-9a-f-]{36}$/);
+      const tooLong = await request(ctx.app).get('/healthz').set('X-Request-Id', 'x'.repeat(65));
+      expect(tooLong.headers['request-id']).toMatch(/^[0-9a-f-]{36}$/);
+      expect(own.headers['x-request-id']).toBeUndefined();
     });
 
     it('sends the helmet security headers', async () => {

@@ -129,9 +129,9 @@ describe('referral is reversible', () => {
   it('brings an SWR referred to the load and back to where it started', () => {
     fc.assert(
       fc.property(fc.double({ min: 0, max: 20, noNaN: true }), fc.double({ min: 1, max: 100, noNaN: true }), (ml, swr) => {
-        const there = referReading({ matchedLossDb: ml, direction: 'loadToSource', reading: { swr } });
-        const back = referReading({ matchedLossDb: ml, direction: 'sourceToLoad', reading: { swr: there.source.swr as number } });
-        expect(Math.abs((back.load.swr as number) - swr) / swr).toBeLessThan(1e-9 * swr);
+        const there = referReading({ matchedLossDb: ml, direction: 'loadToInput', reading: { swr } });
+        const back = referReading({ matchedLossDb: ml, direction: 'inputToLoad', reading: { swr: there.atInput.swr as number } });
+        expect(Math.abs((back.atLoad.swr as number) - swr) / swr).toBeLessThan(1e-9 * swr);
       }),
     );
   });
@@ -144,14 +144,14 @@ describe('referral is reversible', () => {
         fc.double({ min: 0, max: 1, noNaN: true }),
         (ml, pf, fraction) => {
           const pr = pf * fraction;
-          const there = referReading({ matchedLossDb: ml, direction: 'loadToSource', reading: { forwardPowerW: pf, reflectedPowerW: pr } });
+          const there = referReading({ matchedLossDb: ml, direction: 'loadToInput', reading: { forwardPowerW: pf, reflectedPowerW: pr } });
           const back = referReading({
             matchedLossDb: ml,
-            direction: 'sourceToLoad',
-            reading: { forwardPowerW: there.source.forwardPowerW as number, reflectedPowerW: there.source.reflectedPowerW as number },
+            direction: 'inputToLoad',
+            reading: { forwardPowerW: there.atInput.forwardPowerW as number, reflectedPowerW: there.atInput.reflectedPowerW as number },
           });
-          expect(back.load.forwardPowerW as number).toBeCloseTo(pf, 9);
-          expect(Math.abs((back.load.reflectedPowerW as number) - pr)).toBeLessThanOrEqual(1e-12 * pf);
+          expect(back.atLoad.forwardPowerW as number).toBeCloseTo(pf, 9);
+          expect(Math.abs((back.atLoad.reflectedPowerW as number) - pr)).toBeLessThanOrEqual(1e-12 * pf);
         },
       ),
     );

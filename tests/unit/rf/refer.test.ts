@@ -21,31 +21,31 @@ function fieldOf(fn: () => unknown): string | undefined {
 describe('readings at the transmitter are referred to the load', () => {
   it('turns SWR 1.5 at the transmitter into SWR 2.33 at the load through a 3 dB line', () => {
     // |Γs| = 0.2; a = 10^(−0.3) = 0.501187; |ΓL| = 0.2/0.501187 = 0.399052; SWR = 1.399052/0.600948 = 2.32808.
-    const r = referReading({ matchedLossDb: 3, direction: 'sourceToLoad', reading: { swr: 1.5 } });
-    expect(r.source.swr).toBe(1.5);
-    expect(r.source.reflectionMagnitude).toBeCloseTo(0.2, 15);
-    expect(r.load.reflectionMagnitude).toBeCloseTo(0.399052463, 9);
-    expect(r.load.swr).toBeCloseTo(2.328077539, 9);
+    const r = referReading({ matchedLossDb: 3, direction: 'inputToLoad', reading: { swr: 1.5 } });
+    expect(r.atInput.swr).toBe(1.5);
+    expect(r.atInput.reflectionMagnitude).toBeCloseTo(0.2, 15);
+    expect(r.atLoad.reflectionMagnitude).toBeCloseTo(0.399052463, 9);
+    expect(r.atLoad.swr).toBeCloseTo(2.328077539, 9);
   });
 
   it('turns 100 W forward / 4 W reflected at the transmitter into 79.43 W / 5.04 W at the load through 1 dB', () => {
     // a = 10^(−0.1) = 0.794328: Pf,load = 79.4328 W, Pr,load = 4/0.794328 = 5.03570 W,
     // net 74.3971 W against 96 W sent, so the line burns 21.6029 W.
-    const r = referReading({ matchedLossDb: 1, direction: 'sourceToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 4 } });
-    expect(r.load.forwardPowerW).toBeCloseTo(79.4328235, 6);
-    expect(r.load.reflectedPowerW).toBeCloseTo(5.0357016, 6);
-    expect(r.load.netPowerW).toBeCloseTo(74.3971218, 6);
-    expect(r.source.netPowerW).toBe(96);
+    const r = referReading({ matchedLossDb: 1, direction: 'inputToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 4 } });
+    expect(r.atLoad.forwardPowerW).toBeCloseTo(79.4328235, 6);
+    expect(r.atLoad.reflectedPowerW).toBeCloseTo(5.0357016, 6);
+    expect(r.atLoad.netPowerW).toBeCloseTo(74.3971218, 6);
+    expect(r.atInput.netPowerW).toBe(96);
     expect(r.lineDissipationW).toBeCloseTo(21.6028782, 6);
     expect(r.totalLossDb as number).toBeCloseTo(10 * Math.log10(96 / 74.3971218), 6);
   });
 
   it('lets an open antenna look like SWR 3.01 at the transmitter through 3 dB of loss', () => {
-    const r = referReading({ matchedLossDb: 3, direction: 'loadToSource', reading: { forwardPowerW: 50, reflectedPowerW: 50 } });
-    expect(r.load.swr).toBeNull();
+    const r = referReading({ matchedLossDb: 3, direction: 'loadToInput', reading: { forwardPowerW: 50, reflectedPowerW: 50 } });
+    expect(r.atLoad.swr).toBeNull();
     expect(r.totalLossDb).toBeNull();
     // |Γs| = a = 0.501187, SWR = 1.501187/0.498813 = 3.0095.
-    expect(r.source.swr).toBeCloseTo(3.0095, 4);
+    expect(r.atInput.swr).toBeCloseTo(3.0095, 4);
   });
 });
 
@@ -64,8 +64,8 @@ describe('the handbook total-loss formula', () => {
   });
 
   it('equals the referral total loss', () => {
-    const r = referReading({ matchedLossDb: 2.2, direction: 'loadToSource', reading: { swr: 4 } });
-    expect(r.totalLossDb).toBe(handbookTotalLossDb(2.2, r.load.reflectionMagnitude));
+    const r = referReading({ matchedLossDb: 2.2, direction: 'loadToInput', reading: { swr: 4 } });
+    expect(r.totalLossDb).toBe(handbookTotalLossDb(2.2, r.atLoad.reflectionMagnitude));
   });
 
   it('is null for a total reflection and rejects |Γ| above 1', () => {
@@ -78,7 +78,7 @@ describe('readings that cannot match the stated loss are rejected', () => {
   it("rejects SWR 4 at the transmitter on a 3 dB line on 'reading.swr', saying the two cannot both be right", () => {
     // |Γs| = 0.6 would need |ΓL| = 0.6/0.501 = 1.197 > 1.
     try {
-      referReading({ matchedLossDb: 3, direction: 'sourceToLoad', reading: { swr: 4 } });
+      referReading({ matchedLossDb: 3, direction: 'inputToLoad', reading: { swr: 4 } });
       throw new Error('expected a rejection');
     } catch (err) {
       expect(err).toBeInstanceOf(RfInputError);
@@ -89,25 +89,25 @@ describe('readings that cannot match the stated loss are rejected', () => {
   });
 
   it("rejects 30 W reflected of 100 W through 3 dB on 'reading.reflectedPowerW'", () => {
-    expect(fieldOf(() => referReading({ matchedLossDb: 3, direction: 'sourceToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 30 } }))).toBe('reading.reflectedPowerW');
+    expect(fieldOf(() => referReading({ matchedLossDb: 3, direction: 'inputToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 30 } }))).toBe('reading.reflectedPowerW');
   });
 
   it.each([
-    ['an SWR below 1', { matchedLossDb: 1, direction: 'sourceToLoad', reading: { swr: 0.5 } }, 'reading.swr'],
-    ['a negative line loss', { matchedLossDb: -1, direction: 'sourceToLoad', reading: { swr: 2 } }, 'matchedLossDb'],
-    ['more reflected than forward power', { matchedLossDb: 1, direction: 'loadToSource', reading: { forwardPowerW: 1, reflectedPowerW: 2 } }, 'reading.reflectedPowerW'],
-    ['no power at all', { matchedLossDb: 1, direction: 'loadToSource', reading: { forwardPowerW: 0, reflectedPowerW: 0 } }, 'reading.forwardPowerW'],
-    ['a negative forward power', { matchedLossDb: 1, direction: 'loadToSource', reading: { forwardPowerW: -3, reflectedPowerW: 0 } }, 'reading.forwardPowerW'],
+    ['an SWR below 1', { matchedLossDb: 1, direction: 'inputToLoad', reading: { swr: 0.5 } }, 'reading.swr'],
+    ['a negative line loss', { matchedLossDb: -1, direction: 'inputToLoad', reading: { swr: 2 } }, 'matchedLossDb'],
+    ['more reflected than forward power', { matchedLossDb: 1, direction: 'loadToInput', reading: { forwardPowerW: 1, reflectedPowerW: 2 } }, 'reading.reflectedPowerW'],
+    ['no power at all', { matchedLossDb: 1, direction: 'loadToInput', reading: { forwardPowerW: 0, reflectedPowerW: 0 } }, 'reading.forwardPowerW'],
+    ['a negative forward power', { matchedLossDb: 1, direction: 'loadToInput', reading: { forwardPowerW: -3, reflectedPowerW: 0 } }, 'reading.forwardPowerW'],
     ['an unknown direction', { matchedLossDb: 1, direction: 'sideways', reading: { swr: 2 } }, 'direction'],
-    ['SWR and powers together', { matchedLossDb: 1, direction: 'loadToSource', reading: { swr: 2, forwardPowerW: 5, reflectedPowerW: 1 } }, 'reading.swr'],
+    ['SWR and powers together', { matchedLossDb: 1, direction: 'loadToInput', reading: { swr: 2, forwardPowerW: 5, reflectedPowerW: 1 } }, 'reading.swr'],
   ] as const)('rejects %s', (_name, args, field) => {
     expect(fieldOf(() => referReading(args as unknown as Parameters<typeof referReading>[0]))).toBe(field);
   });
 
   it('accepts a reading that puts the load exactly at total reflection', () => {
     const a = 10 ** -0.3;
-    const r = referReading({ matchedLossDb: 3, direction: 'sourceToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 100 * a * a } });
-    expect(r.load.reflectionMagnitude).toBe(1);
-    expect(r.load.swr).toBeNull();
+    const r = referReading({ matchedLossDb: 3, direction: 'inputToLoad', reading: { forwardPowerW: 100, reflectedPowerW: 100 * a * a } });
+    expect(r.atLoad.reflectionMagnitude).toBe(1);
+    expect(r.atLoad.swr).toBeNull();
   });
 });

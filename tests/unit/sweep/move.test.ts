@@ -33,7 +33,7 @@ function closeZ(a: { re: number; im: number } | null, b: { re: number; im: numbe
 
 describe('moving a sweep towards the transmitter', () => {
   it('agrees with transformLine from shared/rf at every point', () => {
-    const moved = moveSweepThroughLine(dipoleSweep, coax(30), 'loadToSource');
+    const moved = moveSweepThroughLine(dipoleSweep, coax(30), 'loadToInput');
     moved.points.forEach((p, i) => {
       const f = p.frequencyHz;
       const expected = transformLine(coax(30)(f), dipoleSweep.points[i]?.loadOhm as { re: number; im: number }, f).inputOhm;
@@ -42,7 +42,7 @@ describe('moving a sweep towards the transmitter', () => {
   });
 
   it('agrees with an independent complex.js re-computation of Zin = Z0·(ZL + Z0·tanh γl)/(Z0 + ZL·tanh γl)', () => {
-    const moved = moveSweepThroughLine(dipoleSweep, jumper(12), 'loadToSource');
+    const moved = moveSweepThroughLine(dipoleSweep, jumper(12), 'loadToInput');
     moved.points.forEach((p) => {
       const line = jumper(12)(p.frequencyHz);
       const z0 = new ComplexJs(line.characteristicOhm.re, line.characteristicOhm.im);
@@ -59,7 +59,7 @@ describe('moving a sweep towards the transmitter', () => {
 
   it('agrees with cascadeLines for a two-section line with a connector loss', () => {
     const line: LineAtFrequency = (f) => [{ ...jumper(2)(f), fixedLossDb: 0.2 }, coax(30)(f)];
-    const moved = moveSweepThroughLine(dipoleSweep, line, 'loadToSource');
+    const moved = moveSweepThroughLine(dipoleSweep, line, 'loadToInput');
     moved.points.forEach((p, i) => {
       const expected = cascadeLines([...(line(p.frequencyHz) as LineModel[])], dipoleSweep.points[i]?.loadOhm as { re: number; im: number }, p.frequencyHz).inputOhm;
       closeZ(p.loadOhm, expected, 1e-12);
@@ -70,7 +70,7 @@ describe('moving a sweep towards the transmitter', () => {
     const f = 10e6;
     // Quarter wave at 10 MHz with velocity factor 1: l = c/(4f) = 7.4948 m.
     const quarter = (): LineModel => lineFromLossSpec({ impedanceOhm: FIFTY, velocityFactor: 1, lossDbPer100m: 0, lengthM: 299_792_458 / (4 * f) }, f);
-    const moved = moveSweepThroughLine({ referenceOhm: 50, points: [{ frequencyHz: f, loadOhm: null }] }, quarter, 'loadToSource');
+    const moved = moveSweepThroughLine({ referenceOhm: 50, points: [{ frequencyHz: f, loadOhm: null }] }, quarter, 'loadToInput');
     expect(Math.hypot(moved.points[0]?.loadOhm?.re ?? NaN, moved.points[0]?.loadOhm?.im ?? NaN)).toBeLessThan(1e-12);
     expect(moved.points[0]?.reflection.re).toBeCloseTo(-1, 12);
   });
@@ -90,7 +90,7 @@ describe('moving there and back', () => {
   });
   const frequency = fc.double({ min: 1e5, max: 1e9, noNaN: true });
 
-  it('returns the original points after loadToSource then sourceToLoad, for random lossy lines and passive loads', () => {
+  it('returns the original points after loadToInput then inputToLoad, for random lossy lines and passive loads', () => {
     fc.assert(
       fc.property(fc.array(lossyLine, { minLength: 1, maxLength: 3 }), passiveLoad, frequency, (sections, load, f) => {
         const line: LineAtFrequency = (hz) =>
@@ -99,8 +99,8 @@ describe('moving there and back', () => {
             fixedLossDb: s.fixedLossDb,
           }));
         const original = { referenceOhm: 50, points: [{ frequencyHz: f, loadOhm: load }] };
-        const there = moveSweepThroughLine(original, line, 'loadToSource');
-        const back = moveSweepThroughLine(there, line, 'sourceToLoad');
+        const there = moveSweepThroughLine(original, line, 'loadToInput');
+        const back = moveSweepThroughLine(there, line, 'inputToLoad');
         const g0 = new ComplexJs(load.re, load.im).sub(50).div(new ComplexJs(load.re, load.im).add(50));
         const g1 = back.points[0]?.reflection as { re: number; im: number };
         // Compared as Γ against 50 ohm, which stays well conditioned near opens and shorts.
@@ -111,8 +111,8 @@ describe('moving there and back', () => {
   });
 
   it('returns an open circuit as an open circuit, or as an impedance whose Γ is 1 within rounding', () => {
-    const there = moveSweepThroughLine({ referenceOhm: 50, points: [{ frequencyHz: 7e6, loadOhm: null }] }, coax(30), 'loadToSource');
-    const back = moveSweepThroughLine(there, coax(30), 'sourceToLoad');
+    const there = moveSweepThroughLine({ referenceOhm: 50, points: [{ frequencyHz: 7e6, loadOhm: null }] }, coax(30), 'loadToInput');
+    const back = moveSweepThroughLine(there, coax(30), 'inputToLoad');
     const g = back.points[0]?.reflection as { re: number; im: number };
     expect(Math.hypot(g.re - 1, g.im)).toBeLessThan(1e-12);
   });
@@ -120,7 +120,7 @@ describe('moving there and back', () => {
 
 describe('line shapes', () => {
   it('treats a zero-length line as the identity, bit for bit', () => {
-    for (const direction of ['loadToSource', 'sourceToLoad'] as const) {
+    for (const direction of ['loadToInput', 'inputToLoad'] as const) {
       const moved = moveSweepThroughLine(dipoleSweep, coax(0), direction);
       moved.points.forEach((p, i) => expect(p.loadOhm).toEqual(dipoleSweep.points[i]?.loadOhm));
     }
@@ -128,20 +128,20 @@ describe('line shapes', () => {
 
   it('moves through two sections the same as through each in turn, in both directions', () => {
     const both: LineAtFrequency = (f) => [coax(20)(f), jumper(3)(f)];
-    const together = moveSweepThroughLine(dipoleSweep, both, 'loadToSource');
+    const together = moveSweepThroughLine(dipoleSweep, both, 'loadToInput');
     // Towards the source the load-end section (the jumper) comes first.
-    const inTurn = moveSweepThroughLine(moveSweepThroughLine(dipoleSweep, jumper(3), 'loadToSource'), coax(20), 'loadToSource');
+    const inTurn = moveSweepThroughLine(moveSweepThroughLine(dipoleSweep, jumper(3), 'loadToInput'), coax(20), 'loadToInput');
     together.points.forEach((p, i) => closeZ(p.loadOhm, inTurn.points[i]?.loadOhm ?? null, 1e-12));
 
     const measured = together;
-    const back = moveSweepThroughLine(measured, both, 'sourceToLoad');
-    const backInTurn = moveSweepThroughLine(moveSweepThroughLine(measured, coax(20), 'sourceToLoad'), jumper(3), 'sourceToLoad');
+    const back = moveSweepThroughLine(measured, both, 'inputToLoad');
+    const backInTurn = moveSweepThroughLine(moveSweepThroughLine(measured, coax(20), 'inputToLoad'), jumper(3), 'inputToLoad');
     back.points.forEach((p, i) => closeZ(p.loadOhm, backInTurn.points[i]?.loadOhm ?? null, 1e-12));
   });
 
   it('accepts a single LineModel from the factory as a one-section line', () => {
-    const single = moveSweepThroughLine(dipoleSweep, coax(30), 'loadToSource');
-    const list = moveSweepThroughLine(dipoleSweep, (f) => [coax(30)(f)], 'loadToSource');
+    const single = moveSweepThroughLine(dipoleSweep, coax(30), 'loadToInput');
+    const list = moveSweepThroughLine(dipoleSweep, (f) => [coax(30)(f)], 'loadToInput');
     expect(single).toEqual(list);
   });
 
@@ -150,7 +150,7 @@ describe('line shapes', () => {
     moveSweepThroughLine(dipoleSweep, (f) => {
       asked.push(f);
       return coax(30)(f);
-    }, 'loadToSource');
+    }, 'loadToInput');
     expect(asked).toEqual(DIPOLE_FREQUENCIES_HZ);
   });
 });
@@ -165,7 +165,7 @@ describe('contradictions and bad lines are RfInputErrors', () => {
     const lossy = (f: number): LineModel => lineFromLossSpec({ impedanceOhm: FIFTY, velocityFactor: 0.66, lossDbPer100m: 3, lengthM: 100 }, f);
     let error: unknown;
     try {
-      moveSweepThroughLine(measured, lossy, 'sourceToLoad');
+      moveSweepThroughLine(measured, lossy, 'inputToLoad');
     } catch (e) {
       error = e;
     }
@@ -176,14 +176,14 @@ describe('contradictions and bad lines are RfInputErrors', () => {
 
   it('de-embeds a pure reactance through a lossless line without a false alarm', () => {
     const lossless = (f: number): LineModel => lineFromLossSpec({ impedanceOhm: FIFTY, velocityFactor: 0.8, lossDbPer100m: 0, lengthM: 13.7 }, f);
-    const moved = moveSweepThroughLine({ referenceOhm: 50, points: [{ frequencyHz: 7e6, loadOhm: { re: 0, im: 33 } }] }, lossless, 'sourceToLoad');
+    const moved = moveSweepThroughLine({ referenceOhm: 50, points: [{ frequencyHz: 7e6, loadOhm: { re: 0, im: 33 } }] }, lossless, 'inputToLoad');
     expect(Math.abs(moved.points[0]?.loadOhm?.re ?? NaN)).toBeLessThan(1e-9);
   });
 
   it('refuses an empty line, a bad direction and an amplifying section', () => {
-    expect(() => moveSweepThroughLine(dipoleSweep, () => [], 'loadToSource')).toThrow(RfInputError);
+    expect(() => moveSweepThroughLine(dipoleSweep, () => [], 'loadToInput')).toThrow(RfInputError);
     expect(() => moveSweepThroughLine(dipoleSweep, coax(1), 'upstream' as never)).toThrow(/direction must be/);
     const gain = (f: number): LineModel => ({ ...coax(1)(f), propagationPerM: { re: -0.01, im: 1 } });
-    expect(() => moveSweepThroughLine(dipoleSweep, gain, 'loadToSource')).toThrow(/cannot amplify/);
+    expect(() => moveSweepThroughLine(dipoleSweep, gain, 'loadToInput')).toThrow(/cannot amplify/);
   });
 });

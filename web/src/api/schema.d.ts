@@ -12,26 +12,7 @@ export interface paths {
             cookie?: never;
         };
         /** The process is alive */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The process answers. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Health"];
-                    };
-                };
-            };
-        };
+        get: operations["getHealth"];
         put?: never;
         post?: never;
         delete?: never;
@@ -48,35 +29,7 @@ export interface paths {
             cookie?: never;
         };
         /** The service can reach its database */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Ready to serve. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Readiness"];
-                    };
-                };
-                /** @description The database is unreachable; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["getReadiness"];
         put?: never;
         post?: never;
         delete?: never;
@@ -96,110 +49,9 @@ export interface paths {
         put?: never;
         /**
          * Mismatch conversions
-         * @description Converts one mismatch figure (SWR, |Γ|, return loss, mismatch loss, reflected power ratio, forward/reflected power or detector voltage, or standing-wave max/min voltage) into all the others. Reflected above forward, SWR below 1, negative powers or two inputs at once are a 422 problem naming the field.
+         * @description Converts one mismatch figure (SWR, |Γ|, return loss, mismatch loss, reflected power ratio, forward/reflected power or detector voltage, or standing-wave max/min voltage) into all the others. Reflected above forward, SWR below 1 or negative powers are a 422 problem naming the field; two inputs at once, or half of a pair, are a 400.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["MismatchRequest"];
-                };
-            };
-            responses: {
-                /** @description The result, in full double precision; unbounded values are `null`. */
-                200: {
-                    headers: {
-                        /** @description The limits that apply. */
-                        "RateLimit-Policy": string;
-                        /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
-                        RateLimit: string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["MismatchResult"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["convertMismatch"];
         delete?: never;
         options?: never;
         head?: never;
@@ -219,108 +71,7 @@ export interface paths {
          * Reflection coefficient of a complex load, and its inverse
          * @description Γ = (ZL − Z0)/(ZL + Z0) with the mismatch figures, the load admittance, and the power-wave reflection coefficient for a complex Z0. Give `reflection` instead of `loadOhm` for the inverse.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["ReflectionRequest"];
-                };
-            };
-            responses: {
-                /** @description The result, in full double precision; unbounded values are `null`. */
-                200: {
-                    headers: {
-                        /** @description The limits that apply. */
-                        "RateLimit-Policy": string;
-                        /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
-                        RateLimit: string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["ReflectionResult"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["computeReflection"];
         delete?: never;
         options?: never;
         head?: never;
@@ -340,115 +91,14 @@ export interface paths {
          * Transform a load through a lossy line
          * @description Input impedance, matched and total loss, SWR at both ends; with `powerW` also the power delivered and dissipated and the RMS voltage/current maxima on the line, with cautions when a voltage exceeds the cable's rating. `line` is one line description, or sections from the transmitter end (cables of different kinds, connectors) as in a saved feed line: the answer then adds each section's own figures in `sections`.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["LineRequest"];
-                };
-            };
-            responses: {
-                /** @description The result, in full double precision; unbounded values are `null`. */
-                200: {
-                    headers: {
-                        /** @description The limits that apply. */
-                        "RateLimit-Policy": string;
-                        /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
-                        RateLimit: string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["LineResult"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["transformThroughLine"];
         delete?: never;
         options?: never;
         head?: never;
         patch?: never;
         trace?: never;
     };
-    "/api/v1/line/refer": {
+    "/api/v1/refer": {
         parameters: {
             query?: never;
             header?: never;
@@ -461,108 +111,7 @@ export interface paths {
          * Refer readings between the two ends of a line
          * @description Moves an SWR or forward/reflected power reading from the transmitter end to the antenna end (or back) through the line's matched loss (of all its sections, when `line` is given as sections). A lossy line makes a bad load look good at the transmitter: readings that imply a load reflection above 1 are a 422 problem, because the readings and the stated loss cannot both be right.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["ReferRequest"];
-                };
-            };
-            responses: {
-                /** @description The result, in full double precision; unbounded values are `null`. */
-                200: {
-                    headers: {
-                        /** @description The limits that apply. */
-                        "RateLimit-Policy": string;
-                        /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
-                        RateLimit: string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["ReferResult"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["referReading"];
         delete?: never;
         options?: never;
         head?: never;
@@ -582,108 +131,7 @@ export interface paths {
          * L-network matching
          * @description Every L-network (series/shunt inductor or capacitor pairs) that transforms the load to the conjugate of the source impedance, with component values at the frequency.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["MatchRequest"];
-                };
-            };
-            responses: {
-                /** @description The result, in full double precision; unbounded values are `null`. */
-                200: {
-                    headers: {
-                        /** @description The limits that apply. */
-                        "RateLimit-Policy": string;
-                        /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
-                        RateLimit: string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["MatchResult"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["matchLoad"];
         delete?: never;
         options?: never;
         head?: never;
@@ -705,110 +153,7 @@ export interface paths {
          *
          *     **NDJSON** (`application/x-ndjson`, no size limit): one item `{ op, input }` per line; the answer streams one line per non-blank input line, in order, `{ line, ok, output | problem }` (`line` = 1-based input line number), computed and charged in blocks of 1000 lines as they arrive, in constant memory and with back-pressure both ways: read the answer while you send (curl does; a client that sends everything before reading stalls once a few megabytes of answers wait). A line that is not JSON, or longer than 64 KB, gets a problem line like a bad item and the stream goes on; every non-blank line costs one unit. The last line is always `{ end: "complete", summary }`, or `{ end: "stopped", problem, nextLine, summary }` when the daily quota ran out (problem status 429; lines from `nextLine` on were not computed) or the server could not go on; an answer without an `end` line was cut off. When no quota is left at the start, the answer is a plain 429 problem.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["BatchRequest"];
-                    "application/x-ndjson": components["schemas"]["BatchItem"];
-                };
-            };
-            responses: {
-                /** @description Results in item order (JSON), or a stream of result lines ending with an `end` line (NDJSON). */
-                200: {
-                    headers: {
-                        /** @description The limits that apply. */
-                        "RateLimit-Policy": string;
-                        /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
-                        RateLimit: string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["BatchResponse"];
-                        "application/x-ndjson": components["schemas"]["BatchStreamLine"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is neither JSON nor NDJSON. */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["runBatch"];
         delete?: never;
         options?: never;
         head?: never;
@@ -826,145 +171,13 @@ export interface paths {
          * The cable catalog and your organisation's cables
          * @description Generic cable types by trade designation (`origin: "catalog"`), with impedance, velocity factor, attenuation model, voltage rating where known, and the source of each entry; then the cables admins of your organisation defined (`origin: "account"`, ids starting with `account-`). Any of these ids works as `cableId` everywhere.
          */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Every cable you can use. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["CableList"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["listCables"];
         put?: never;
         /**
          * Define a cable for your organisation (admins)
          * @description The cable becomes usable as `cableId` in every calculation, batch, feed line and sweep of your organisation. Its id starts with `account-` so it never collides with a catalog id; without `id`, one is made from the designation.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["CreateAccountCable"];
-                };
-            };
-            responses: {
-                /** @description The cable. */
-                201: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["CableEntry"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The change conflicts with the current state (the detail says which). */
-                409: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["createCable"];
         delete?: never;
         options?: never;
         head?: never;
@@ -979,248 +192,21 @@ export interface paths {
             cookie?: never;
         };
         /** One cable */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The cable. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["CableEntry"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["getCable"];
         put?: never;
         post?: never;
         /**
          * Remove one of your organisation's cables (admins)
          * @description Refused (409) while a saved feed line uses the cable; the problem names those feed lines.
          */
-        delete: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Removed. */
-                204: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content?: never;
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The change conflicts with the current state (the detail says which). */
-                409: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        delete: operations["deleteCable"];
         options?: never;
         head?: never;
         /**
          * Change one of your organisation's cables (admins)
          * @description Feed lines on the cable use the new figures from then on; sweeps already stored keep the points they were moved to.
          */
-        patch: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["UpdateAccountCable"];
-                };
-            };
-            responses: {
-                /** @description The cable after the change. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["CableEntry"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        patch: operations["updateCable"];
         trace?: never;
     };
     "/api/v1/cables/{id}/attenuation": {
@@ -1231,113 +217,7 @@ export interface paths {
             cookie?: never;
         };
         /** Matched loss of a cable at a frequency */
-        get: {
-            parameters: {
-                query: {
-                    /** @description Frequency in hertz. */
-                    frequencyHz: number;
-                    /** @description Length in metres (for `lossDb`). */
-                    lengthM?: number | null;
-                    /** @description Length in feet (for `lossDb`). */
-                    lengthFt?: number | null;
-                };
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Loss per 100 m / 100 ft, and for the given length. */
-                200: {
-                    headers: {
-                        /** @description The limits that apply. */
-                        "RateLimit-Policy": string;
-                        /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
-                        RateLimit: string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["CableAttenuation"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["getCableAttenuation"];
         put?: never;
         post?: never;
         delete?: never;
@@ -1354,136 +234,13 @@ export interface paths {
             cookie?: never;
         };
         /** List your organisation's saved feed lines */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Feed lines, oldest first. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["FeedlineList"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["listFeedlines"];
         put?: never;
         /**
          * Save a feed line
          * @description Describe a station's feed line once, as ordered sections from the transmitter end (cables of the catalog or your organisation, custom lines, connectors and adapters as fixed losses), then refer meter readings or transform loads through it by id.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["CreateFeedline"];
-                };
-            };
-            responses: {
-                /** @description The saved feed line. */
-                201: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Feedline"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["createFeedline"];
         delete?: never;
         options?: never;
         head?: never;
@@ -1498,239 +255,21 @@ export interface paths {
             cookie?: never;
         };
         /** One saved feed line */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The feed line. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Feedline"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["getFeedline"];
         put?: never;
         post?: never;
         /**
          * Delete a saved feed line
          * @description Sweeps moved through it keep their points and a copy of its sections.
          */
-        delete: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Deleted. */
-                204: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content?: never;
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        delete: operations["deleteFeedline"];
         options?: never;
         head?: never;
         /**
          * Change a saved feed line
          * @description `sections`, when sent, replaces all sections. Sweeps already moved through the feed line keep their points.
          */
-        patch: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["UpdateFeedline"];
-                };
-            };
-            responses: {
-                /** @description The feed line after the change. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Feedline"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        patch: operations["updateFeedline"];
         trace?: never;
     };
     "/api/v1/feedlines/{id}/line": {
@@ -1746,119 +285,7 @@ export interface paths {
          * Transform a load through a saved feed line
          * @description As POST /api/v1/line, with the saved sections cascaded: the load is carried through each section in turn (exact lossy-line solution), a connector being a matched fixed loss. Totals are end to end; `sections` has each section on its own. One calculation unit.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["FeedlineLineRequest"];
-                };
-            };
-            responses: {
-                /** @description The result, in full double precision; unbounded values are `null`. */
-                200: {
-                    headers: {
-                        /** @description The limits that apply. */
-                        "RateLimit-Policy": string;
-                        /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
-                        RateLimit: string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["FeedlineLineResult"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["transformThroughFeedline"];
         delete?: never;
         options?: never;
         head?: never;
@@ -1876,121 +303,9 @@ export interface paths {
         put?: never;
         /**
          * Refer a reading between the two ends of a saved feed line
-         * @description As POST /api/v1/line/refer, with the matched loss of the saved feed line at the frequency (the sum of its sections' matched losses, connectors included). Readings that the stated loss cannot explain are a 422 problem. One calculation unit.
+         * @description As POST /api/v1/refer, with the matched loss of the saved feed line at the frequency (the sum of its sections' matched losses, connectors included). Readings that the stated loss cannot explain are a 422 problem. One calculation unit.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["FeedlineReferRequest"];
-                };
-            };
-            responses: {
-                /** @description Figures at both ends. */
-                200: {
-                    headers: {
-                        /** @description The limits that apply. */
-                        "RateLimit-Policy": string;
-                        /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
-                        RateLimit: string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["FeedlineReferResult"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["referReadingThroughFeedline"];
         delete?: never;
         options?: never;
         head?: never;
@@ -2008,148 +323,13 @@ export interface paths {
          * List your organisation's sweeps
          * @description Summaries and verdicts without the points, newest first.
          */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The sweeps. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["SweepList"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["listSweeps"];
         put?: never;
         /**
          * Upload and analyse a sweep
          * @description A Touchstone one-port file (`.s1p`, version 1 or 2, any option line: Hz/kHz/MHz/GHz, S/Z/Y, MA/DB/RI, R n) or a CSV (`frequency_hz, r_ohm, x_ohm` or `frequency_hz, s11_re, s11_im`) as multipart/form-data in the field `file` (at most 8 MB and 100,000 points), or JSON points. With `line` or `feedlineId` and `direction` the sweep is moved to the other end of the line first. Per point: impedance, Γ, SWR and return loss against `referenceOhm`; a summary (minimum SWR, bands under `thresholdSwr`, resonances) and, with a `mask`, a pass/fail verdict with the worst point. The sweep is stored for your organisation. A file that cannot be read is a 400 problem naming the line and what is wrong there. One calculation unit.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "multipart/form-data": components["schemas"]["CreateSweepMultipart"];
-                    "application/json": components["schemas"]["CreateSweepJson"];
-                };
-            };
-            responses: {
-                /** @description The stored sweep with every analysed point. */
-                201: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Sweep"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["uploadSweep"];
         delete?: never;
         options?: never;
         head?: never;
@@ -2164,132 +344,11 @@ export interface paths {
             cookie?: never;
         };
         /** One sweep with every analysed point */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The sweep. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Sweep"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["getSweep"];
         put?: never;
         post?: never;
         /** Delete a sweep */
-        delete: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Deleted. */
-                204: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content?: never;
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        delete: operations["deleteSweep"];
         options?: never;
         head?: never;
         patch?: never;
@@ -2306,64 +365,7 @@ export interface paths {
          * The analysed points as CSV
          * @description RFC 4180 CSV with CRLF line ends and a header row: `frequency_hz, r_ohm, x_ohm, reflection_re, reflection_im, reflection_magnitude, reflection_angle_deg, swr, return_loss_db`. Unbounded figures and an open circuit's impedance are empty cells. POST /api/v1/sweeps reads such a file back.
          */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The CSV file. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "text/csv": string;
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["exportSweepPoints"];
         put?: never;
         post?: never;
         delete?: never;
@@ -2383,196 +385,18 @@ export interface paths {
          * Who am I
          * @description The signed-in member, their organisation and the session's CSRF token.
          */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The current session. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Session"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["getSession"];
         put?: never;
         /**
          * Sign in to the console
          * @description Checks e-mail and password and sets the session cookie (httpOnly, SameSite=Lax, Secure in production). Failed attempts are throttled per account and per client address (429 with Retry-After). Disabled members cannot sign in.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["SignIn"];
-                };
-            };
-            responses: {
-                /** @description Signed in; the cookie is set and the answer carries the CSRF token. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Session"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description E-mail or password is wrong (the answer does not say which). */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["signIn"];
         /**
          * Sign out
          * @description Ends the session (the row is deleted) and clears the cookie. Needs `X-CSRF-Token`.
          */
-        delete: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Signed out. */
-                204: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content?: never;
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        delete: operations["signOut"];
         options?: never;
         head?: never;
         patch?: never;
@@ -2591,86 +415,7 @@ export interface paths {
          * Ask for a password-reset link
          * @description Always answers 202, whether or not the address belongs to a member, so the answer reveals nothing. Throttled per address and per account.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["RequestPasswordReset"];
-                };
-            };
-            responses: {
-                /** @description Taken into account. */
-                202: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["ResetRequested"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
-                429: {
-                    headers: {
-                        /** @description Seconds to wait before trying again. */
-                        "Retry-After": string;
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["requestPasswordReset"];
         delete?: never;
         options?: never;
         head?: never;
@@ -2690,73 +435,7 @@ export interface paths {
          * Choose a new password with the token from the e-mail
          * @description The token works once and for one hour. Every session of the member ends; sign in again with the new password.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["ConfirmPasswordReset"];
-                };
-            };
-            responses: {
-                /** @description The password is changed. */
-                204: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content?: never;
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["confirmPasswordReset"];
         delete?: never;
         options?: never;
         head?: never;
@@ -2774,184 +453,13 @@ export interface paths {
          * List keys
          * @description Developers see their own keys; admins see every key of the organisation (optionally one owner's). Secrets are never listed.
          */
-        get: {
-            parameters: {
-                query?: {
-                    /** @description Only keys of this member (admins; developers always see only their own). */
-                    ownerId?: string;
-                };
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The keys, oldest first. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["ApiKeyList"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["listKeys"];
         put?: never;
         /**
          * Issue a key
          * @description Issues a key for yourself, or (admins) for any member. The answer holds the secret; it is shown this once. Quota fields are for admins; without them the key gets the organisation defaults. Audited.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["CreateApiKey"];
-                };
-            };
-            responses: {
-                /** @description The key and its secret (shown once). */
-                201: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["CreatedApiKey"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The change conflicts with the current state (the detail says which). */
-                409: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["createKey"];
         delete?: never;
         options?: never;
         head?: never;
@@ -2966,250 +474,21 @@ export interface paths {
             cookie?: never;
         };
         /** Read a key */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The key. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["ApiKey"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["getKey"];
         put?: never;
         post?: never;
         /**
          * Revoke a key
          * @description Revocation is immediate and final; the key stays listed as `revoked`. Audited.
          */
-        delete: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The revoked key. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["ApiKey"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        delete: operations["revokeKey"];
         options?: never;
         head?: never;
         /**
          * Rename a key or change its limits
          * @description Owners may change name and note; only admins may change `dailyQuota` and `burstPerMinute` (audited). New limits apply from the next request.
          */
-        patch: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["UpdateApiKey"];
-                };
-            };
-            responses: {
-                /** @description The key after the change. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["ApiKey"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        patch: operations["updateKey"];
         trace?: never;
     };
     "/api/v1/usage": {
@@ -3223,80 +502,7 @@ export interface paths {
          * Calculation usage per day, endpoint and key
          * @description Developers, and every key, see their own usage: their keys plus their console calls. Admins signed in to the console see the whole organisation, optionally one member or key. Days are UTC. Reading usage spends no quota.
          */
-        get: {
-            parameters: {
-                query?: {
-                    /** @description First UTC day (default: 29 days before `to`). */
-                    from?: string;
-                    /** @description Last UTC day, inclusive (default: today). */
-                    to?: string;
-                    /** @description Only this member (admins; others always see their own). */
-                    userId?: string;
-                    /** @description Only this key. */
-                    keyId?: string;
-                };
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Daily series and breakdowns. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Usage"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["getUsage"];
         put?: never;
         post?: never;
         delete?: never;
@@ -3313,53 +519,7 @@ export interface paths {
             cookie?: never;
         };
         /** List the members of your organisation (admins) */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Members, oldest first. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["MemberList"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["listMembers"];
         put?: never;
         post?: never;
         delete?: never;
@@ -3385,113 +545,7 @@ export interface paths {
          * Change a member's role, name or disabled state (admins)
          * @description Disabling ends the member's sessions at once and stops their keys; enabling makes the keys work again. Role and disabled changes are audited.
          */
-        patch: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["UpdateMember"];
-                };
-            };
-            responses: {
-                /** @description The member after the change. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Member"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The change conflicts with the current state (the detail says which). */
-                409: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        patch: operations["updateMember"];
         trace?: never;
     };
     "/api/v1/invitations": {
@@ -3502,154 +556,13 @@ export interface paths {
             cookie?: never;
         };
         /** List invitations (admins) */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Invitations, newest first. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["InvitationList"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["listInvitations"];
         put?: never;
         /**
          * Invite someone by e-mail (admins)
          * @description Sends a single-use link valid for 7 days. A newer invitation to the same address replaces a pending one.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["CreateInvitation"];
-                };
-            };
-            responses: {
-                /** @description The invitation (the token only travels in the e-mail). */
-                201: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Invitation"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The change conflicts with the current state (the detail says which). */
-                409: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["createInvitation"];
         delete?: never;
         options?: never;
         head?: never;
@@ -3667,73 +580,7 @@ export interface paths {
         put?: never;
         post?: never;
         /** Withdraw a pending invitation (admins) */
-        delete: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The withdrawn invitation. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Invitation"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        delete: operations["withdrawInvitation"];
         options?: never;
         head?: never;
         patch?: never;
@@ -3752,84 +599,7 @@ export interface paths {
          * Accept an invitation
          * @description Creates the member from the token in the e-mail; the token works once. Then sign in with POST /api/v1/session.
          */
-        post: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["AcceptInvitation"];
-                };
-            };
-            responses: {
-                /** @description The new member. */
-                201: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Member"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The change conflicts with the current state (the detail says which). */
-                409: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        post: operations["acceptInvitation"];
         delete?: never;
         options?: never;
         head?: never;
@@ -3844,137 +614,14 @@ export interface paths {
             cookie?: never;
         };
         /** Your organisation and its default limits */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The organisation. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Organisation"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["getOrganisation"];
         put?: never;
         post?: never;
         delete?: never;
         options?: never;
         head?: never;
         /** Change the default limits for new keys (admins) */
-        patch: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody: {
-                content: {
-                    "application/json": components["schemas"]["UpdateOrganisation"];
-                };
-            };
-            responses: {
-                /** @description The organisation after the change. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["Organisation"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body exceeds the size limit. */
-                413: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The body is not in a media type this operation takes (see its request body). */
-                415: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        patch: operations["updateOrganisation"];
         trace?: never;
     };
     "/api/v1/audit": {
@@ -3985,75 +632,7 @@ export interface paths {
             cookie?: never;
         };
         /** Who changed keys, quotas and roles, newest first (admins) */
-        get: {
-            parameters: {
-                query?: {
-                    limit?: number;
-                    /** @description Only events before this instant (for paging: the createdAt of the last event seen). */
-                    before?: string;
-                };
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Audit events. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["AuditEventList"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["listAuditEvents"];
         put?: never;
         post?: never;
         delete?: never;
@@ -4073,84 +652,7 @@ export interface paths {
          * Captured outgoing mail, newest first (admins, local mode)
          * @description Every message the app sent, as caught by its own SMTP server on 127.0.0.1. Local mode only: in production Gammaline sends mail through SMTP_URL and this route answers 404.
          */
-        get: {
-            parameters: {
-                query?: {
-                    /** @description Only messages to this address. */
-                    to?: string;
-                    limit?: number;
-                };
-                header?: never;
-                path?: never;
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description Messages without bodies. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["CapturedMailList"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
-                422: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
-        };
+        get: operations["listCapturedMail"];
         put?: never;
         post?: never;
         delete?: never;
@@ -4170,73 +672,27 @@ export interface paths {
          * One captured message (admins, local mode)
          * @description Decoded text and the raw message. Local mode only: in production Gammaline sends mail through SMTP_URL and this route answers 404.
          */
-        get: {
-            parameters: {
-                query?: never;
-                header?: never;
-                path: {
-                    id: string;
-                };
-                cookie?: never;
-            };
-            requestBody?: never;
-            responses: {
-                /** @description The message. */
-                200: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/json": components["schemas"]["CapturedMail"];
-                    };
-                };
-                /** @description The request is malformed or fails validation (field list in `errors`). */
-                400: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
-                401: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
-                403: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description Not found. */
-                404: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-                /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
-                503: {
-                    headers: {
-                        [name: string]: unknown;
-                    };
-                    content: {
-                        "application/problem+json": components["schemas"]["Problem"];
-                    };
-                };
-            };
+        get: operations["getCapturedMail"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/api/v1/openapi.json": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
         };
+        /**
+         * This OpenAPI 3.1 document
+         * @description Generated from the same zod schemas that validate requests; `/docs` renders it for people.
+         */
+        get: operations["getOpenApiDocument"];
         put?: never;
         post?: never;
         delete?: never;
@@ -4251,7 +707,10 @@ export interface components {
     schemas: {
         /** @description RFC 9457 problem details (application/problem+json). */
         Problem: {
-            /** @example urn:gammaline:problem:validation */
+            /**
+             * @description A stable URI naming the kind of problem; branch on it, not on `title` or `detail`. The kinds are listed in the API description.
+             * @example urn:gammaline:problem:validation
+             */
             type: string;
             /** @example The request body is not valid */
             title: string;
@@ -4271,11 +730,16 @@ export interface components {
             field: string;
             /** @example must be greater than or equal to 0 */
             message: string;
+            /**
+             * @description For an unknown field close to a known one: the field probably meant.
+             * @example did you mean frequencyHz (hertz)?
+             */
+            hint?: string;
         };
         Health: {
             /** @enum {string} */
             status: "ok";
-            /** @example 0.1.0 */
+            /** @example 0.2.0 */
             version: string;
             /**
              * @description Seconds since the process started.
@@ -4342,7 +806,7 @@ export interface components {
             forwardPowerW?: number;
             /**
              * @description Reflected power in watts, read at the same point (≤ forward).
-             * @example 100
+             * @example 4
              */
             reflectedPowerW?: number;
             /** @description Forward-wave detector voltage (any consistent unit of volts). */
@@ -4681,8 +1145,8 @@ export interface components {
             label?: string;
         };
         ReferResult: {
-            /** @description At the transmitter end. */
-            source: {
+            /** @description At the line's input, the transmitter end. */
+            atInput: {
                 /**
                  * @description Standing-wave ratio; `null` at total reflection (|Γ| = 1), where it is unbounded.
                  * @example 1.5
@@ -4698,8 +1162,8 @@ export interface components {
                 reflectedPowerW?: number;
                 netPowerW?: number;
             };
-            /** @description At the antenna end. */
-            load: {
+            /** @description At the load, the antenna end. */
+            atLoad: {
                 /**
                  * @description Standing-wave ratio; `null` at total reflection (|Γ| = 1), where it is unbounded.
                  * @example 1.5
@@ -4731,7 +1195,7 @@ export interface components {
          *         "cableId": "rg-58",
          *         "lengthM": 40
          *       },
-         *       "direction": "sourceToLoad",
+         *       "direction": "inputToLoad",
          *       "reading": {
          *         "forwardPowerW": 100,
          *         "reflectedPowerW": 11
@@ -4749,10 +1213,10 @@ export interface components {
             /** @description The line's matched loss, instead of `frequencyHz` + `line`. */
             matchedLossDb?: number;
             /**
-             * @description `sourceToLoad`: the reading was taken at the transmitter; `loadToSource`: at the antenna.
+             * @description `inputToLoad`: the reading was taken at the transmitter; `loadToInput`: at the antenna.
              * @enum {string}
              */
-            direction: "sourceToLoad" | "loadToSource";
+            direction: "inputToLoad" | "loadToInput";
             reading: components["schemas"]["Reading"];
         };
         /**
@@ -4766,13 +1230,13 @@ export interface components {
             /** @description SWR read at this end. */
             swr?: number;
             /**
-             * @description Power in watts (≥ 0).
+             * @description Forward power read at this end, W.
              * @example 100
              */
             forwardPowerW?: number;
             /**
-             * @description Power in watts (≥ 0).
-             * @example 100
+             * @description Reflected power read at this end (≤ forward), W.
+             * @example 11
              */
             reflectedPowerW?: number;
         };
@@ -4957,7 +1421,7 @@ export interface components {
          *           "op": "refer",
          *           "input": {
          *             "matchedLossDb": 1.2,
-         *             "direction": "sourceToLoad",
+         *             "direction": "inputToLoad",
          *             "reading": {
          *               "swr": 1.8
          *             }
@@ -4971,7 +1435,7 @@ export interface components {
             items: components["schemas"]["BatchItem"][];
         };
         /**
-         * @description One calculation: `op` names it (`mismatch`, `reflection`, `line` = POST /line, `refer` = POST /line/refer, `match`) and `input` is the body that endpoint takes.
+         * @description One calculation: `op` is the calculation's name as in its path (`mismatch` = POST /api/v1/mismatch, `reflection`, `line`, `refer`, `match`) and `input` is the body that endpoint takes.
          * @example {
          *       "op": "mismatch",
          *       "input": {
@@ -5320,8 +1784,8 @@ export interface components {
             powerW?: number;
         };
         FeedlineReferResult: {
-            /** @description At the transmitter end. */
-            source: {
+            /** @description At the line's input, the transmitter end. */
+            atInput: {
                 /**
                  * @description Standing-wave ratio; `null` at total reflection (|Γ| = 1), where it is unbounded.
                  * @example 1.5
@@ -5337,8 +1801,8 @@ export interface components {
                 reflectedPowerW?: number;
                 netPowerW?: number;
             };
-            /** @description At the antenna end. */
-            load: {
+            /** @description At the load, the antenna end. */
+            atLoad: {
                 /**
                  * @description Standing-wave ratio; `null` at total reflection (|Γ| = 1), where it is unbounded.
                  * @example 1.5
@@ -5366,7 +1830,7 @@ export interface components {
         /**
          * @example {
          *       "frequencyHz": 7100000,
-         *       "direction": "sourceToLoad",
+         *       "direction": "inputToLoad",
          *       "reading": {
          *         "forwardPowerW": 100,
          *         "reflectedPowerW": 6
@@ -5380,10 +1844,10 @@ export interface components {
              */
             frequencyHz: number;
             /**
-             * @description `sourceToLoad`: the reading was taken at the transmitter; `loadToSource`: at the antenna.
+             * @description `inputToLoad`: the reading was taken at the transmitter; `loadToInput`: at the antenna.
              * @enum {string}
              */
-            direction: "sourceToLoad" | "loadToSource";
+            direction: "inputToLoad" | "loadToInput";
             reading: components["schemas"]["Reading"];
         };
         /** @description A stored sweep with every analysed point. */
@@ -5398,10 +1862,10 @@ export interface components {
             thresholdSwr: number;
             /**
              * @description How the sweep was moved; `null` when it was not.
-             * @example sourceToLoad
+             * @example inputToLoad
              * @enum {string|null}
              */
-            direction: "sourceToLoad" | "loadToSource" | null;
+            direction: "inputToLoad" | "loadToInput" | null;
             /** @description The saved feed line it was moved through, while that feed line exists. */
             feedline: {
                 /** Format: uuid */
@@ -5558,7 +2022,7 @@ export interface components {
             /** @description JSON of a `SweepLine`, e.g. `{"cableId":"rg-213","lengthM":28}`. */
             line?: string;
             feedlineId?: string;
-            /** @description `sourceToLoad` or `loadToSource`. */
+            /** @description `inputToLoad` or `loadToInput`. */
             direction?: string;
             /** @description JSON of a `SweepMask`, e.g. `{"maxSwr":1.5}`. */
             mask?: string;
@@ -5622,10 +2086,10 @@ export interface components {
             feedlineId?: string;
             /**
              * @description Required with `line` or `feedlineId`.
-             * @example sourceToLoad
+             * @example inputToLoad
              * @enum {string}
              */
-            direction?: "sourceToLoad" | "loadToSource";
+            direction?: "inputToLoad" | "loadToInput";
             mask?: components["schemas"]["SweepMask"];
             /** @description Points by strictly increasing frequency (1 to 20000). */
             points: components["schemas"]["SweepPointInput"][];
@@ -5688,10 +2152,10 @@ export interface components {
             thresholdSwr: number;
             /**
              * @description How the sweep was moved; `null` when it was not.
-             * @example sourceToLoad
+             * @example inputToLoad
              * @enum {string|null}
              */
-            direction: "sourceToLoad" | "loadToSource" | null;
+            direction: "inputToLoad" | "loadToInput" | null;
             /** @description The saved feed line it was moved through, while that feed line exists. */
             feedline: {
                 /** Format: uuid */
@@ -5917,7 +2381,10 @@ export interface components {
                 requests: number;
             }[];
             byEndpoint: {
-                /** @example mismatch */
+                /**
+                 * @description What was charged: a calculation by its name (`mismatch`, `reflection`, `line`, `refer`, `match`, as in its path and batch op), `batch`, `cableAttenuation`, `feedlineLine`, `feedlineRefer` or `sweeps`.
+                 * @example mismatch
+                 */
                 endpoint: string;
                 /** @example 420 */
                 units: number;
@@ -6125,4 +2592,3882 @@ export interface components {
     pathItems: never;
 }
 export type $defs = Record<string, never>;
-export type operations = Record<string, never>;
+export interface operations {
+    getHealth: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The process answers. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Health"];
+                };
+            };
+            /** @description The request declares a body larger than the server accepts; it is refused before it is read. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getReadiness: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Ready to serve. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Readiness"];
+                };
+            };
+            /** @description The request declares a body larger than the server accepts; it is refused before it is read. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    convertMismatch: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["MismatchRequest"];
+            };
+        };
+        responses: {
+            /** @description The result, in full double precision; unbounded values are `null`. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    /**
+                     * @example {
+                     *       "swr": 1.4999999999999998,
+                     *       "reflectionMagnitude": 0.2,
+                     *       "returnLossDb": 13.979400086720375,
+                     *       "mismatchLossDb": 0.17728766960431588,
+                     *       "reflectedPowerRatio": 0.04000000000000001,
+                     *       "transmittedPowerRatio": 0.96,
+                     *       "netPowerW": 96
+                     *     }
+                     */
+                    "application/json": components["schemas"]["MismatchResult"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    computeReflection: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["ReflectionRequest"];
+            };
+        };
+        responses: {
+            /** @description The result, in full double precision; unbounded values are `null`. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    /**
+                     * @example {
+                     *       "reflection": {
+                     *         "re": 0.39999999999999997,
+                     *         "im": 0.20000000000000004,
+                     *         "magnitude": 0.4472135954999579,
+                     *         "angleDeg": 26.565051177077997
+                     *       },
+                     *       "powerWaveReflection": {
+                     *         "re": 0.39999999999999997,
+                     *         "im": 0.20000000000000004,
+                     *         "magnitude": 0.4472135954999579,
+                     *         "angleDeg": 26.565051177077997
+                     *       },
+                     *       "swr": 2.6180339887498945,
+                     *       "returnLossDb": 6.989700043360188,
+                     *       "mismatchLossDb": 0.9691001300805641,
+                     *       "reflectedPowerRatio": 0.19999999999999998,
+                     *       "transmittedPowerRatio": 0.8,
+                     *       "loadOhm": {
+                     *         "re": 100,
+                     *         "im": 50
+                     *       },
+                     *       "admittanceS": {
+                     *         "re": 0.008,
+                     *         "im": -0.004
+                     *       },
+                     *       "referenceOhm": {
+                     *         "re": 50,
+                     *         "im": 0
+                     *       }
+                     *     }
+                     */
+                    "application/json": components["schemas"]["ReflectionResult"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    transformThroughLine: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["LineRequest"];
+            };
+        };
+        responses: {
+            /** @description The result, in full double precision; unbounded values are `null`. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    /**
+                     * @example {
+                     *       "inputOhm": {
+                     *         "re": 49.82943554546554,
+                     *         "im": -19.8144816310657
+                     *       },
+                     *       "characteristicOhm": {
+                     *         "re": 50,
+                     *         "im": 0
+                     *       },
+                     *       "electricalLengthDeg": 775.0816612058879,
+                     *       "lengthWavelengths": 2.1530046144607997,
+                     *       "matchedLossDb": 0.7331988514322438,
+                     *       "totalLossDb": 0.8024733690394438,
+                     *       "mismatchExtraLossDb": 0.06927451760719995,
+                     *       "atLoad": {
+                     *         "reflection": {
+                     *           "re": 0.19779063650710152,
+                     *           "im": 0.11835875854813256,
+                     *           "magnitude": 0.23049930935892088,
+                     *           "angleDeg": 30.89648167510786
+                     *         },
+                     *         "swr": 1.5990879856570097,
+                     *         "returnLossDb": 12.746607430828005,
+                     *         "impedanceOhm": {
+                     *           "re": 72,
+                     *           "im": 18
+                     *         }
+                     *       },
+                     *       "atInput": {
+                     *         "reflection": {
+                     *           "re": 0.03625865188466072,
+                     *           "im": -0.19128661937222846,
+                     *           "magnitude": 0.19469273378158933,
+                     *           "angleDeg": -79.26684073666789
+                     *         },
+                     *         "swr": 1.4835240955811417,
+                     *         "returnLossDb": 14.213005133692496,
+                     *         "impedanceOhm": {
+                     *           "re": 49.82943554546554,
+                     *           "im": -19.8144816310657
+                     *         }
+                     *       },
+                     *       "cautions": [],
+                     *       "power": {
+                     *         "inputW": 100,
+                     *         "loadW": 83.12902046316788,
+                     *         "lineDissipationW": 16.870979536832124
+                     *       },
+                     *       "peaks": {
+                     *         "maxVoltageV": 85.87719751157553,
+                     *         "maxCurrentA": 1.7063173435936316,
+                     *         "maxVoltageAtM": 1.5170957517148977,
+                     *         "maxCurrentAtM": 5.000955198704446
+                     *       }
+                     *     }
+                     */
+                    "application/json": components["schemas"]["LineResult"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    referReading: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["ReferRequest"];
+            };
+        };
+        responses: {
+            /** @description The result, in full double precision; unbounded values are `null`. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    /**
+                     * @example {
+                     *       "atInput": {
+                     *         "swr": 1.992499952888854,
+                     *         "reflectionMagnitude": 0.33166247903553997,
+                     *         "returnLossDb": 9.58607314841775,
+                     *         "forwardPowerW": 100,
+                     *         "reflectedPowerW": 11,
+                     *         "netPowerW": 89
+                     *       },
+                     *       "atLoad": {
+                     *         "swr": 2.7743593303766794,
+                     *         "reflectionMagnitude": 0.4701087456343483,
+                     *         "returnLossDb": 6.556033387406682,
+                     *         "forwardPowerW": 70.55016144998669,
+                     *         "reflectedPowerW": 15.591743199337603,
+                     *         "netPowerW": 54.95841825064909
+                     *       },
+                     *       "matchedLossDb": 1.515019880505534,
+                     *       "totalLossDb": 2.0935578177282532,
+                     *       "lineDissipationW": 34.04158174935091
+                     *     }
+                     */
+                    "application/json": components["schemas"]["ReferResult"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    matchLoad: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["MatchRequest"];
+            };
+        };
+        responses: {
+            /** @description The result, in full double precision; unbounded values are `null`. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    /**
+                     * @example {
+                     *       "solutions": [
+                     *         {
+                     *           "topology": "shuntAtLoad",
+                     *           "elements": [
+                     *             {
+                     *               "position": "series",
+                     *               "kind": "inductor",
+                     *               "reactanceOhm": 43.01162633521313,
+                     *               "valueH": 0.0000018754829977180035
+                     *             },
+                     *             {
+                     *               "position": "shunt",
+                     *               "kind": "inductor",
+                     *               "reactanceOhm": 53.056303053225186,
+                     *               "valueH": 0.000002313472025507509
+                     *             }
+                     *           ],
+                     *           "inputOhm": {
+                     *             "re": 50.00000000000001,
+                     *             "im": 0
+                     *           }
+                     *         },
+                     *         {
+                     *           "topology": "shuntAtLoad",
+                     *           "elements": [
+                     *             {
+                     *               "position": "series",
+                     *               "kind": "capacitor",
+                     *               "reactanceOhm": -43.01162633521313,
+                     *               "valueF": 1.013774593361083e-9
+                     *             },
+                     *             {
+                     *               "position": "shunt",
+                     *               "kind": "inductor",
+                     *               "reactanceOhm": 25.89106536782743,
+                     *               "valueH": 0.000001128956448001402
+                     *             }
+                     *           ],
+                     *           "inputOhm": {
+                     *             "re": 50.00000000000001,
+                     *             "im": 0
+                     *           }
+                     *         },
+                     *         {
+                     *           "topology": "seriesAtLoad",
+                     *           "elements": [
+                     *             {
+                     *               "position": "shunt",
+                     *               "kind": "capacitor",
+                     *               "reactanceOhm": -28.097574347450816,
+                     *               "valueF": 1.5518810790774036e-9
+                     *             },
+                     *             {
+                     *               "position": "series",
+                     *               "kind": "inductor",
+                     *               "reactanceOhm": 51.35415650406262,
+                     *               "valueH": 0.0000022392514673798283
+                     *             }
+                     *           ],
+                     *           "inputOhm": {
+                     *             "re": 50,
+                     *             "im": -1.734723475976807e-14
+                     *           }
+                     *         },
+                     *         {
+                     *           "topology": "seriesAtLoad",
+                     *           "elements": [
+                     *             {
+                     *               "position": "shunt",
+                     *               "kind": "inductor",
+                     *               "reactanceOhm": 28.097574347450816,
+                     *               "valueH": 0.0000012251692729558448
+                     *             },
+                     *             {
+                     *               "position": "series",
+                     *               "kind": "inductor",
+                     *               "reactanceOhm": 8.645843495937378,
+                     *               "valueH": 3.7699417248694435e-7
+                     *             }
+                     *           ],
+                     *           "inputOhm": {
+                     *             "re": 50,
+                     *             "im": 1.734723475976807e-14
+                     *           }
+                     *         }
+                     *       ]
+                     *     }
+                     */
+                    "application/json": components["schemas"]["MatchResult"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    runBatch: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["BatchRequest"];
+                "application/x-ndjson": components["schemas"]["BatchItem"];
+            };
+        };
+        responses: {
+            /** @description Results in item order (JSON), or a stream of result lines ending with an `end` line (NDJSON). */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["BatchResponse"];
+                    "application/x-ndjson": components["schemas"]["BatchStreamLine"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is neither JSON nor NDJSON. */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    listCables: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Every cable you can use. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["CableList"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    createCable: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["CreateAccountCable"];
+            };
+        };
+        responses: {
+            /** @description The cable. */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["CableEntry"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The change conflicts with the current state (the detail says which). */
+            409: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getCable: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The cable. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["CableEntry"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    deleteCable: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Removed. */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The change conflicts with the current state (the detail says which). */
+            409: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    updateCable: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["UpdateAccountCable"];
+            };
+        };
+        responses: {
+            /** @description The cable after the change. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["CableEntry"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getCableAttenuation: {
+        parameters: {
+            query: {
+                /** @description Frequency in hertz. */
+                frequencyHz: number;
+                /** @description Length in metres (for `lossDb`). */
+                lengthM?: number | null;
+                /** @description Length in feet (for `lossDb`). */
+                lengthFt?: number | null;
+            };
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Loss per 100 m / 100 ft, and for the given length. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["CableAttenuation"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    listFeedlines: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Feed lines, oldest first. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["FeedlineList"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    createFeedline: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["CreateFeedline"];
+            };
+        };
+        responses: {
+            /** @description The saved feed line. */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Feedline"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getFeedline: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The feed line. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Feedline"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    deleteFeedline: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Deleted. */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    updateFeedline: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["UpdateFeedline"];
+            };
+        };
+        responses: {
+            /** @description The feed line after the change. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Feedline"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    transformThroughFeedline: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["FeedlineLineRequest"];
+            };
+        };
+        responses: {
+            /** @description The result, in full double precision; unbounded values are `null`. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["FeedlineLineResult"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    referReadingThroughFeedline: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["FeedlineReferRequest"];
+            };
+        };
+        responses: {
+            /** @description Figures at both ends. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["FeedlineReferResult"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    listSweeps: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The sweeps. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["SweepList"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    uploadSweep: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "multipart/form-data": components["schemas"]["CreateSweepMultipart"];
+                "application/json": components["schemas"]["CreateSweepJson"];
+            };
+        };
+        responses: {
+            /** @description The stored sweep with every analysed point. */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Sweep"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getSweep: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The sweep. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Sweep"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    deleteSweep: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Deleted. */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    exportSweepPoints: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The CSV file. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "text/csv": string;
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getSession: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The current session. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Session"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    signIn: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["SignIn"];
+            };
+        };
+        responses: {
+            /** @description Signed in; the cookie is set and the answer carries the CSRF token. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Session"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description E-mail or password is wrong (the answer does not say which). */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    signOut: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Signed out. */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    requestPasswordReset: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["RequestPasswordReset"];
+            };
+        };
+        responses: {
+            /** @description Taken into account. */
+            202: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ResetRequested"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    confirmPasswordReset: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["ConfirmPasswordReset"];
+            };
+        };
+        responses: {
+            /** @description The password is changed. */
+            204: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content?: never;
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    listKeys: {
+        parameters: {
+            query?: {
+                /** @description Only keys of this member (admins; developers always see only their own). */
+                ownerId?: string;
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The keys, oldest first. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ApiKeyList"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    createKey: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["CreateApiKey"];
+            };
+        };
+        responses: {
+            /** @description The key and its secret (shown once). */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["CreatedApiKey"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The change conflicts with the current state (the detail says which). */
+            409: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getKey: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The key. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ApiKey"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    revokeKey: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The revoked key. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ApiKey"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    updateKey: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["UpdateApiKey"];
+            };
+        };
+        responses: {
+            /** @description The key after the change. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ApiKey"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getUsage: {
+        parameters: {
+            query?: {
+                /** @description First UTC day (default: 29 days before `to`). */
+                from?: string;
+                /** @description Last UTC day, inclusive (default: today). */
+                to?: string;
+                /** @description Only this member (admins; others always see their own). */
+                userId?: string;
+                /** @description Only this key. */
+                keyId?: string;
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Daily series and breakdowns. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Usage"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    listMembers: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Members, oldest first. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["MemberList"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    updateMember: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["UpdateMember"];
+            };
+        };
+        responses: {
+            /** @description The member after the change. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Member"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The change conflicts with the current state (the detail says which). */
+            409: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    listInvitations: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Invitations, newest first. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["InvitationList"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    createInvitation: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["CreateInvitation"];
+            };
+        };
+        responses: {
+            /** @description The invitation (the token only travels in the e-mail). */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Invitation"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The change conflicts with the current state (the detail says which). */
+            409: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    withdrawInvitation: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The withdrawn invitation. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Invitation"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    acceptInvitation: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["AcceptInvitation"];
+            };
+        };
+        responses: {
+            /** @description The new member. */
+            201: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Member"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The change conflicts with the current state (the detail says which). */
+            409: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getOrganisation: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The organisation. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Organisation"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    updateOrganisation: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["UpdateOrganisation"];
+            };
+        };
+        responses: {
+            /** @description The organisation after the change. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Organisation"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    listAuditEvents: {
+        parameters: {
+            query?: {
+                limit?: number;
+                /** @description Only events before this instant (for paging: the createdAt of the last event seen). */
+                before?: string;
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Audit events. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["AuditEventList"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    listCapturedMail: {
+        parameters: {
+            query?: {
+                /** @description Only messages to this address. */
+                to?: string;
+                limit?: number;
+            };
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description Messages without bodies. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["CapturedMailList"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getCapturedMail: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The message. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["CapturedMail"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getOpenApiDocument: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The document. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": {
+                        openapi: string;
+                    } & {
+                        [key: string]: unknown;
+                    };
+                };
+            };
+            /** @description The request declares a body larger than the server accepts; it is refused before it is read. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+}

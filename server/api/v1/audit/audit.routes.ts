@@ -28,6 +28,7 @@ const AuditQuery = z.strictObject({
 registry.registerPath({
   method: 'get',
   path: '/api/v1/audit',
+  operationId: 'listAuditEvents',
   tags: ['Audit'],
   summary: 'Who changed keys, quotas and roles, newest first (admins)',
   security: sessionOnly,

@@ -231,7 +231,7 @@ export function streamResults(ctx: AppContext): RequestHandler {
       if (client) return;
       const problem = isDatabaseUnavailable(err) || isStatementCancelled(err)
         ? new ApiError('unavailable', 'The database became unreachable or too slow, so no more items could be charged; send the remaining lines again shortly.').toProblem()
-        : new ApiError('internal', 'The stream stopped because of a fault on our side; send the remaining lines again. The request id in X-Request-Id helps us find it.').toProblem();
+        : new ApiError('internal', 'The stream stopped because of a fault on our side; send the remaining lines again. The request id in Request-Id helps us find it.').toProblem();
       if (problem.status === 500) req.log?.error({ err }, 'NDJSON batch failed');
       await finish({ problem });
     }

@@ -79,7 +79,8 @@ const NdjsonResultLineSchema = z
 registry.registerPath({
   method: 'post',
   path: '/api/v1/batch',
-  tags: ['Calculations'],
+  operationId: 'runBatch',
+  tags: ['Batch'],
   summary: 'Many calculations in one request (JSON or streamed NDJSON)',
   description: [
     `**JSON** (\`application/json\`, body up to ${BATCH_JSON_LIMIT}): \`{ items: [{ op, input }] }\` with 1 to ${MAX_BATCH_ITEMS} items; \`op\` is \`mismatch\`, \`reflection\`, \`line\`, \`refer\` or \`match\` and \`input\` the body of that endpoint. `,
@@ -125,7 +126,7 @@ const envelope: RequestHandler = (req, res, next) => {
     throw new ApiError('unsupportedMediaType', `Send the batch as JSON (Content-Type: application/json) or stream it as NDJSON (Content-Type: ${NDJSON_TYPE}).`);
   }
   const parsed = BatchEnvelopeSchema.safeParse(req.body ?? {});
-  if (!parsed.success) throw apiErrorFromZod(parsed.error);
+  if (!parsed.success) throw apiErrorFromZod(parsed.error, 'body', { schema: BatchEnvelopeSchema, input: req.body ?? {} });
   res.locals.body = parsed.data;
   next();
 };

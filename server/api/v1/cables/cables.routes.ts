@@ -31,6 +31,7 @@ const accountEntry = (c: CableType & { updatedAt: string }): Entry => ({ ...c, o
 registry.registerPath({
   method: 'get',
   path: '/api/v1/cables',
+  operationId: 'listCables',
   tags,
   summary: 'The cable catalog and your organisation\'s cables',
   description:
@@ -42,6 +43,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'get',
   path: '/api/v1/cables/{id}',
+  operationId: 'getCable',
   tags,
   summary: 'One cable',
   security: keyOrSession,
@@ -52,6 +54,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'get',
   path: '/api/v1/cables/{id}/attenuation',
+  operationId: 'getCableAttenuation',
   tags,
   summary: 'Matched loss of a cable at a frequency',
   security: keyOrSession,
@@ -67,6 +70,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'post',
   path: '/api/v1/cables',
+  operationId: 'createCable',
   tags,
   summary: 'Define a cable for your organisation (admins)',
   description:
@@ -85,6 +89,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'patch',
   path: '/api/v1/cables/{id}',
+  operationId: 'updateCable',
   tags,
   summary: 'Change one of your organisation\'s cables (admins)',
   description: 'Feed lines on the cable use the new figures from then on; sweeps already stored keep the points they were moved to.',
@@ -102,6 +107,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'delete',
   path: '/api/v1/cables/{id}',
+  operationId: 'deleteCable',
   tags,
   summary: 'Remove one of your organisation\'s cables (admins)',
   description: 'Refused (409) while a saved feed line uses the cable; the problem names those feed lines.',

@@ -10,23 +10,24 @@ import { assertFinite, CALCULATIONS, type CalculationName } from './operations.t
 /** Authentication and metering for one endpoint, supplied by whoever mounts the router. */
 export type EndpointGuard = (endpoint: string, options: { metered: boolean }) => RequestHandler[];
 
-const CALCULATION_ROUTES: { name: CalculationName; path: string; summary: string; description: string }[] = [
+/** Each calculation's path is `/api/v1/<name>`, the name a batch item gives as its `op`. */
+const CALCULATION_ROUTES: { name: CalculationName; operationId: string; summary: string; description: string }[] = [
   {
     name: 'mismatch',
-    path: '/mismatch',
+    operationId: 'convertMismatch',
     summary: 'Mismatch conversions',
     description:
-      'Converts one mismatch figure (SWR, |Γ|, return loss, mismatch loss, reflected power ratio, forward/reflected power or detector voltage, or standing-wave max/min voltage) into all the others. Reflected above forward, SWR below 1, negative powers or two inputs at once are a 422 problem naming the field.',
+      'Converts one mismatch figure (SWR, |Γ|, return loss, mismatch loss, reflected power ratio, forward/reflected power or detector voltage, or standing-wave max/min voltage) into all the others. Reflected above forward, SWR below 1 or negative powers are a 422 problem naming the field; two inputs at once, or half of a pair, are a 400.',
   },
   {
     name: 'reflection',
-    path: '/reflection',
+    operationId: 'computeReflection',
     summary: 'Reflection coefficient of a complex load, and its inverse',
     description: 'Γ = (ZL − Z0)/(ZL + Z0) with the mismatch figures, the load admittance, and the power-wave reflection coefficient for a complex Z0. Give `reflection` instead of `loadOhm` for the inverse.',
   },
   {
     name: 'line',
-    path: '/line',
+    operationId: 'transformThroughLine',
     summary: 'Transform a load through a lossy line',
     description:
       'Input impedance, matched and total loss, SWR at both ends; with `powerW` also the power delivered and dissipated and the RMS voltage/current maxima on the line, with cautions when a voltage exceeds the cable\'s rating. ' +
@@ -34,24 +35,32 @@ const CALCULATION_ROUTES: { name: CalculationName; path: string; summary: string
   },
   {
     name: 'refer',
-    path: '/line/refer',
+    operationId: 'referReading',
     summary: 'Refer readings between the two ends of a line',
     description:
       'Moves an SWR or forward/reflected power reading from the transmitter end to the antenna end (or back) through the line\'s matched loss (of all its sections, when `line` is given as sections). A lossy line makes a bad load look good at the transmitter: readings that imply a load reflection above 1 are a 422 problem, because the readings and the stated loss cannot both be right.',
   },
   {
     name: 'match',
-    path: '/match',
+    operationId: 'matchLoad',
     summary: 'L-network matching',
     description: 'Every L-network (series/shunt inductor or capacitor pairs) that transforms the load to the conjugate of the source impedance, with component values at the frequency.',
   },
 ];
 
+/** The answer to a request schema's own example, so /docs shows a request and the answer it really gets. */
+function answerToExample(name: CalculationName): unknown {
+  const calc = CALCULATIONS[name];
+  const example = (calc.request.meta() as { example?: unknown } | undefined)?.example;
+  return calc.run(calc.request.parse(example) as never, catalogOnly);
+}
+
 for (const route of CALCULATION_ROUTES) {
   const calc = CALCULATIONS[route.name];
   registry.registerPath({
     method: 'post',
-    path: `/api/v1${route.path}`,
+    path: `/api/v1/${route.name}`,
+    operationId: route.operationId,
     tags: ['Calculations'],
     summary: route.summary,
     description: route.description,
@@ -61,7 +70,7 @@ for (const route of CALCULATION_ROUTES) {
       200: {
         description: 'The result, in full double precision; unbounded values are `null`.',
         headers: rateLimitHeaders,
-        content: { 'application/json': { schema: calc.result } },
+        content: { 'application/json': { schema: calc.result, example: answerToExample(route.name) } },
       },
       ...calculationProblems,
       ...meteredProblems,
@@ -103,7 +112,7 @@ export function calcRouter(ctx: AppContext, options: { guard?: EndpointGuard; en
 
   for (const route of CALCULATION_ROUTES) {
     const calc = CALCULATIONS[route.name];
-    router.post(route.path, ...guard(route.name, { metered: true }), validateBody(calc.request), env, (_req, res) => {
+    router.post(`/${route.name}`, ...guard(route.name, { metered: true }), validateBody(calc.request), env, (_req, res) => {
       const body = JSON.stringify(assertFinite(calc.run(res.locals.body as never, envOf(res))));
       // Straight to the socket: res.json's content negotiation and conversions are not needed here.
       res.setHeader('Content-Type', 'application/json; charset=utf-8');

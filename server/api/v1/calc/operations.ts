@@ -50,7 +50,7 @@ function definedOnly<T extends object>(value: T): T {
 type ReferReading = Parameters<typeof referReading>[0]['reading'];
 
 /** A reading referred through line models, whose matched losses add up; each model's own loss is listed too. */
-export function referThroughModels(models: readonly LineModel[], direction: 'sourceToLoad' | 'loadToSource', reading: ReferReading) {
+export function referThroughModels(models: readonly LineModel[], direction: 'inputToLoad' | 'loadToInput', reading: ReferReading) {
   const sectionsMatchedLossDb = models.map(sectionMatchedLossDb);
   const matchedLossDb = sectionsMatchedLossDb.reduce((a, b) => a + b, 0);
   return { ...referReading({ matchedLossDb, direction, reading }), sectionsMatchedLossDb };

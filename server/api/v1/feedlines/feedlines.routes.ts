@@ -38,6 +38,7 @@ const notFound = () => new ApiError('notFound', 'No feed line with that id in yo
 registry.registerPath({
   method: 'get',
   path: '/api/v1/feedlines',
+  operationId: 'listFeedlines',
   tags,
   summary: 'List your organisation\'s saved feed lines',
   security: keyOrSession,
@@ -47,6 +48,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'post',
   path: '/api/v1/feedlines',
+  operationId: 'createFeedline',
   tags,
   summary: 'Save a feed line',
   description:
@@ -65,6 +67,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'get',
   path: '/api/v1/feedlines/{id}',
+  operationId: 'getFeedline',
   tags,
   summary: 'One saved feed line',
   security: keyOrSession,
@@ -75,6 +78,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'patch',
   path: '/api/v1/feedlines/{id}',
+  operationId: 'updateFeedline',
   tags,
   summary: 'Change a saved feed line',
   description: '`sections`, when sent, replaces all sections. Sweeps already moved through the feed line keep their points.',
@@ -93,6 +97,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'delete',
   path: '/api/v1/feedlines/{id}',
+  operationId: 'deleteFeedline',
   tags,
   summary: 'Delete a saved feed line',
   description: 'Sweeps moved through it keep their points and a copy of its sections.',
@@ -104,6 +109,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'post',
   path: '/api/v1/feedlines/{id}/line',
+  operationId: 'transformThroughFeedline',
   tags,
   summary: 'Transform a load through a saved feed line',
   description:
@@ -121,10 +127,11 @@ registry.registerPath({
 registry.registerPath({
   method: 'post',
   path: '/api/v1/feedlines/{id}/refer',
+  operationId: 'referReadingThroughFeedline',
   tags,
   summary: 'Refer a reading between the two ends of a saved feed line',
   description:
-    'As POST /api/v1/line/refer, with the matched loss of the saved feed line at the frequency (the sum of its sections\' matched losses, connectors included). Readings that the stated loss cannot explain are a 422 problem. One calculation unit.',
+    'As POST /api/v1/refer, with the matched loss of the saved feed line at the frequency (the sum of its sections\' matched losses, connectors included). Readings that the stated loss cannot explain are a 422 problem. One calculation unit.',
   security: keyOrSession,
   request: { ...params, body: { required: true, ...json(FeedlineReferRequestSchema) } },
   responses: {

@@ -3,7 +3,7 @@ import { and, desc, eq, gt, isNull, sql } from 'drizzle-orm';
 import type { AppContext } from '../../../context.ts';
 import { invitations, organisations, users } from '../../../db/schema.ts';
 import { callerOf, requireAdmin, requireSession } from '../../../auth/caller.ts';
-import { authProblems, sessionOnly } from '../../../auth/openapi.ts';
+import { authProblems, publicAccess, sessionOnly } from '../../../auth/openapi.ts';
 import { hashPassword, PasswordSchema } from '../../../auth/password.ts';
 import { generateToken, hashToken, looksLikeToken } from '../../../auth/tokens.ts';
 import { ApiError } from '../../../http/problem.ts';
@@ -50,6 +50,7 @@ const tags = ['Invitations'];
 registry.registerPath({
   method: 'get',
   path: '/api/v1/invitations',
+  operationId: 'listInvitations',
   tags,
   summary: 'List invitations (admins)',
   security: sessionOnly,
@@ -59,6 +60,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'post',
   path: '/api/v1/invitations',
+  operationId: 'createInvitation',
   tags,
   summary: 'Invite someone by e-mail (admins)',
   description: 'Sends a single-use link valid for 7 days. A newer invitation to the same address replaces a pending one.',
@@ -77,6 +79,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'delete',
   path: '/api/v1/invitations/{id}',
+  operationId: 'withdrawInvitation',
   tags,
   summary: 'Withdraw a pending invitation (admins)',
   security: sessionOnly,
@@ -87,6 +90,8 @@ registry.registerPath({
 registry.registerPath({
   method: 'post',
   path: '/api/v1/invitations/accept',
+  operationId: 'acceptInvitation',
+  security: publicAccess,
   tags,
   summary: 'Accept an invitation',
   description: 'Creates the member from the token in the e-mail; the token works once. Then sign in with POST /api/v1/session.',

@@ -27,6 +27,7 @@ const tags = ['Keys'];
 registry.registerPath({
   method: 'get',
   path: '/api/v1/keys',
+  operationId: 'listKeys',
   tags,
   summary: 'List keys',
   description: 'Developers see their own keys; admins see every key of the organisation (optionally one owner\'s). Secrets are never listed.',
@@ -38,6 +39,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'post',
   path: '/api/v1/keys',
+  operationId: 'createKey',
   tags,
   summary: 'Issue a key',
   description:
@@ -59,6 +61,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'get',
   path: '/api/v1/keys/{id}',
+  operationId: 'getKey',
   tags,
   summary: 'Read a key',
   security: sessionOnly,
@@ -69,6 +72,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'patch',
   path: '/api/v1/keys/{id}',
+  operationId: 'updateKey',
   tags,
   summary: 'Rename a key or change its limits',
   description: 'Owners may change name and note; only admins may change `dailyQuota` and `burstPerMinute` (audited). New limits apply from the next request.',
@@ -86,6 +90,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'delete',
   path: '/api/v1/keys/{id}',
+  operationId: 'revokeKey',
   tags,
   summary: 'Revoke a key',
   description: 'Revocation is immediate and final; the key stays listed as `revoked`. Audited.',

@@ -68,7 +68,7 @@ export const UpdateApiKeySchema = z
     dailyQuota: Quota.optional(),
     burstPerMinute: Burst.optional(),
   })
-  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one of name, note, dailyQuota, burstPerMinute' })
+  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one of name, note, dailyQuota, burstPerMinute', params: { shape: true } })
   .openapi('UpdateApiKey');
 
 export const KeyIdParamsSchema = z.object({ id: z.uuid({ message: 'key ids are UUIDs, as listed by GET /api/v1/keys' }) });

@@ -27,12 +27,16 @@ const ListQuery = z.strictObject({
 });
 const IdParams = z.object({ id: z.uuid({ message: 'message ids are UUIDs, as listed by GET /api/v1/mail' }) });
 
+/** The routes that exist in local mode only (the captured mail). */
+export const LOCAL_MODE_PATH_PREFIX = '/api/v1/mail';
+
 const LOCAL_ONLY = ' Local mode only: in production Gammaline sends mail through SMTP_URL and this route answers 404.';
 const tags = ['Local mail'];
 
 registry.registerPath({
   method: 'get',
   path: '/api/v1/mail',
+  operationId: 'listCapturedMail',
   tags,
   summary: 'Captured outgoing mail, newest first (admins, local mode)',
   description: `Every message the app sent, as caught by its own SMTP server on 127.0.0.1.${LOCAL_ONLY}`,
@@ -44,6 +48,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'get',
   path: '/api/v1/mail/{id}',
+  operationId: 'getCapturedMail',
   tags,
   summary: 'One captured message (admins, local mode)',
   description: `Decoded text and the raw message.${LOCAL_ONLY}`,

@@ -15,6 +15,7 @@ const tags = ['Members'];
 registry.registerPath({
   method: 'get',
   path: '/api/v1/members',
+  operationId: 'listMembers',
   tags,
   summary: 'List the members of your organisation (admins)',
   security: sessionOnly,
@@ -24,6 +25,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'patch',
   path: '/api/v1/members/{id}',
+  operationId: 'updateMember',
   tags,
   summary: 'Change a member\'s role, name or disabled state (admins)',
   description: 'Disabling ends the member\'s sessions at once and stops their keys; enabling makes the keys work again. Role and disabled changes are audited.',

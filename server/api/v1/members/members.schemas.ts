@@ -24,7 +24,7 @@ export const UpdateMemberSchema = z
     disabled: z.boolean().optional(),
     displayName: z.string().trim().min(1).max(100).optional(),
   })
-  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one of role, disabled, displayName' })
+  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one of role, disabled, displayName', params: { shape: true } })
   .openapi('UpdateMember', { description: 'Role and disabled changes are audited. You cannot change your own role or disable yourself.' });
 
 export const MemberIdParamsSchema = z.object({ id: z.uuid({ message: 'member ids are UUIDs, as listed by GET /api/v1/members' }) });

@@ -25,13 +25,14 @@ const UpdateOrganisationSchema = z
     defaultDailyQuota: z.number().int().min(1).max(100_000_000).optional().openapi({ example: 20000 }),
     defaultBurstPerMinute: z.number().int().min(1).max(1_000_000).optional().openapi({ example: 240 }),
   })
-  .refine((v) => Object.keys(v).length > 0, { message: 'send defaultDailyQuota, defaultBurstPerMinute or both' })
+  .refine((v) => Object.keys(v).length > 0, { message: 'send defaultDailyQuota, defaultBurstPerMinute or both', params: { shape: true } })
   .openapi('UpdateOrganisation', { description: 'New defaults apply to keys issued afterwards; existing keys keep their limits.' });
 
 
 registry.registerPath({
   method: 'get',
   path: '/api/v1/organisation',
+  operationId: 'getOrganisation',
   tags: ['Organisation'],
   summary: 'Your organisation and its default limits',
   security: keyOrSession,
@@ -41,6 +42,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'patch',
   path: '/api/v1/organisation',
+  operationId: 'updateOrganisation',
   tags: ['Organisation'],
   summary: 'Change the default limits for new keys (admins)',
   security: sessionOnly,

@@ -2,7 +2,7 @@ import { Router } from 'express';
 import { and, eq, gt, isNull, sql } from 'drizzle-orm';
 import type { AppContext } from '../../../context.ts';
 import { passwordResets, users } from '../../../db/schema.ts';
-import { authProblems } from '../../../auth/openapi.ts';
+import { authProblems, publicAccess } from '../../../auth/openapi.ts';
 import { hashPassword, PasswordSchema } from '../../../auth/password.ts';
 import { resetMailCounter, resetThrottleByAddress } from '../../../auth/throttle.ts';
 import { generateToken, hashToken, looksLikeToken } from '../../../auth/tokens.ts';
@@ -34,6 +34,8 @@ const tags = ['Session'];
 registry.registerPath({
   method: 'post',
   path: '/api/v1/password-reset',
+  operationId: 'requestPasswordReset',
+  security: publicAccess,
   tags,
   summary: 'Ask for a password-reset link',
   description: 'Always answers 202, whether or not the address belongs to a member, so the answer reveals nothing. Throttled per address and per account.',
@@ -44,6 +46,8 @@ registry.registerPath({
 registry.registerPath({
   method: 'post',
   path: '/api/v1/password-reset/confirm',
+  operationId: 'confirmPasswordReset',
+  security: publicAccess,
   tags,
   summary: 'Choose a new password with the token from the e-mail',
   description: 'The token works once and for one hour. Every session of the member ends; sign in again with the new password.',

@@ -3,7 +3,7 @@ import { eq, sql } from 'drizzle-orm';
 import type { AppContext } from '../../../context.ts';
 import { organisations, users } from '../../../db/schema.ts';
 import { callerOf, requireSession } from '../../../auth/caller.ts';
-import { authProblems, sessionOnly } from '../../../auth/openapi.ts';
+import { authProblems, publicAccess, sessionOnly } from '../../../auth/openapi.ts';
 import { verifyPassword } from '../../../auth/password.ts';
 import { endSession, startSession } from '../../../auth/session.ts';
 import { signInThrottleByAccount, signInThrottleByAddress } from '../../../auth/throttle.ts';
@@ -34,6 +34,8 @@ const tags = ['Session'];
 registry.registerPath({
   method: 'post',
   path: '/api/v1/session',
+  operationId: 'signIn',
+  security: publicAccess,
   tags,
   summary: 'Sign in to the console',
   description:
@@ -51,6 +53,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'get',
   path: '/api/v1/session',
+  operationId: 'getSession',
   tags,
   summary: 'Who am I',
   description: 'The signed-in member, their organisation and the session\'s CSRF token.',
@@ -61,6 +64,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'delete',
   path: '/api/v1/session',
+  operationId: 'signOut',
   tags,
   summary: 'Sign out',
   description: 'Ends the session (the row is deleted) and clears the cookie. Needs `X-CSRF-Token`.',

@@ -29,7 +29,7 @@ const tags = ['Sweeps'];
 
 function parseOrThrow<S extends z.ZodType>(schema: S, value: unknown): z.infer<S> {
   const parsed = schema.safeParse(value);
-  if (!parsed.success) throw apiErrorFromZod(parsed.error);
+  if (!parsed.success) throw apiErrorFromZod(parsed.error, 'body', { schema, input: value });
   return parsed.data;
 }
 
@@ -53,6 +53,7 @@ const notFound = () => new ApiError('notFound', 'No sweep with that id in your o
 registry.registerPath({
   method: 'post',
   path: '/api/v1/sweeps',
+  operationId: 'uploadSweep',
   tags,
   summary: 'Upload and analyse a sweep',
   description:
@@ -80,6 +81,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'get',
   path: '/api/v1/sweeps',
+  operationId: 'listSweeps',
   tags,
   summary: 'List your organisation\'s sweeps',
   description: 'Summaries and verdicts without the points, newest first.',
@@ -90,6 +92,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'get',
   path: '/api/v1/sweeps/{id}',
+  operationId: 'getSweep',
   tags,
   summary: 'One sweep with every analysed point',
   security: keyOrSession,
@@ -100,6 +103,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'get',
   path: '/api/v1/sweeps/{id}/points.csv',
+  operationId: 'exportSweepPoints',
   tags,
   summary: 'The analysed points as CSV',
   description:
@@ -120,6 +124,7 @@ registry.registerPath({
 registry.registerPath({
   method: 'delete',
   path: '/api/v1/sweeps/{id}',
+  operationId: 'deleteSweep',
   tags,
   summary: 'Delete a sweep',
   security: keyOrSession,

@@ -33,7 +33,15 @@ const UsageSchema = z
     totalUnits: z.number().int().openapi({ example: 1234 }),
     totalRequests: z.number().int().openapi({ example: 1200 }),
     days: z.array(z.object({ day: z.string().openapi({ example: '2026-03-14' }), ...Counts })).openapi({ description: 'One entry per UTC day in the range, zeros included.' }),
-    byEndpoint: z.array(z.object({ endpoint: z.string().openapi({ example: 'mismatch' }), ...Counts })),
+    byEndpoint: z.array(
+      z.object({
+        endpoint: z.string().openapi({
+          description: 'What was charged: a calculation by its name (`mismatch`, `reflection`, `line`, `refer`, `match`, as in its path and batch op), `batch`, `cableAttenuation`, `feedlineLine`, `feedlineRefer` or `sweeps`.',
+          example: 'mismatch',
+        }),
+        ...Counts,
+      }),
+    ),
     byKey: z
       .array(
         z.object({
@@ -63,6 +71,7 @@ const UsageSchema = z
 registry.registerPath({
   method: 'get',
   path: '/api/v1/usage',
+  operationId: 'getUsage',
   tags: ['Usage'],
   summary: 'Calculation usage per day, endpoint and key',
   description:

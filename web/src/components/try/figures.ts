@@ -25,7 +25,7 @@ export async function sendTry(request: TryRequest): Promise<TryAnswer> {
     case 'line':
       return { endpoint: 'line', body: await unwrap(api.POST('/api/v1/line', { body: request.body as Schemas['LineRequest'] })) };
     case 'refer':
-      return { endpoint: 'refer', body: await unwrap(api.POST('/api/v1/line/refer', { body: request.body as Schemas['ReferRequest'] })) };
+      return { endpoint: 'refer', body: await unwrap(api.POST('/api/v1/refer', { body: request.body as Schemas['ReferRequest'] })) };
     case 'match':
       return { endpoint: 'match', body: await unwrap(api.POST('/api/v1/match', { body: request.body as Schemas['MatchRequest'] })) };
     case 'batch':
@@ -78,7 +78,7 @@ function mismatchFigures(r: {
   ];
 }
 
-function endFigures(prefix: string, e: Schemas['ReferResult']['source']): Figure[] {
+function endFigures(prefix: string, e: Schemas['ReferResult']['atInput']): Figure[] {
   const list: Figure[] = [
     { name: `${prefix}.swr`, label: 'SWR', value: swrText(e.swr) },
     { name: `${prefix}.returnLossDb`, label: 'Return loss', value: dbText(e.returnLossDb, 'unbounded (perfect match)') },
@@ -92,9 +92,9 @@ function endFigures(prefix: string, e: Schemas['ReferResult']['source']): Figure
 
 /** One computed batch output in a few words: its key figure, whichever calculation gave it. */
 function batchOutputText(output: Record<string, unknown>): string {
-  const o = output as { swr?: number | null; inputOhm?: { re: number; im: number }; load?: { swr: number | null }; solutions?: unknown[]; reflection?: { magnitude: number } };
+  const o = output as { swr?: number | null; inputOhm?: { re: number; im: number }; atLoad?: { swr: number | null }; solutions?: unknown[]; reflection?: { magnitude: number } };
   if (o.inputOhm) return `input impedance ${formatImpedance(o.inputOhm)}`;
-  if (o.load) return `SWR at the antenna ${swrText(o.load.swr)}`;
+  if (o.atLoad) return `SWR at the antenna ${swrText(o.atLoad.swr)}`;
   if (o.solutions) return `${o.solutions.length} L-network(s)`;
   if (o.reflection) return `|Γ| ${formatNumber(o.reflection.magnitude)}, SWR ${swrText(o.swr)}`;
   if (o.swr !== undefined) return `SWR ${swrText(o.swr)}`;
@@ -151,14 +151,14 @@ export function figuresOf(answer: TryAnswer): { groups: FigureGroup[]; cautions:
           ],
         },
         {
-          heading: 'At the transmitter end',
+          heading: 'At the input (transmitter end)',
           figures: [
             { name: 'atInput.swr', label: 'SWR', value: swrText(r.atInput.swr) },
             { name: 'atInput.returnLossDb', label: 'Return loss', value: dbText(r.atInput.returnLossDb, 'unbounded (perfect match)') },
           ],
         },
         {
-          heading: 'At the antenna end',
+          heading: 'At the load (antenna end)',
           figures: [
             { name: 'atLoad.swr', label: 'SWR', value: swrText(r.atLoad.swr) },
             { name: 'atLoad.returnLossDb', label: 'Return loss', value: dbText(r.atLoad.returnLossDb, 'unbounded (perfect match)') },
@@ -204,8 +204,8 @@ export function figuresOf(answer: TryAnswer): { groups: FigureGroup[]; cautions:
       if (r.lineDissipationW !== undefined) line.push({ name: 'lineDissipationW', label: 'Burned in the line', value: wText(r.lineDissipationW) });
       return {
         groups: [
-          { heading: 'At the transmitter end', figures: endFigures('source', r.source) },
-          { heading: 'At the antenna end', figures: endFigures('load', r.load) },
+          { heading: 'At the input (transmitter end)', figures: endFigures('atInput', r.atInput) },
+          { heading: 'At the load (antenna end)', figures: endFigures('atLoad', r.atLoad) },
           { heading: 'Line', figures: line },
         ],
         cautions: [],

@@ -3,7 +3,7 @@ export type TryRequest =
   | { endpoint: 'mismatch'; method: 'POST'; path: '/api/v1/mismatch'; body: object }
   | { endpoint: 'reflection'; method: 'POST'; path: '/api/v1/reflection'; body: object }
   | { endpoint: 'line'; method: 'POST'; path: '/api/v1/line'; body: object }
-  | { endpoint: 'refer'; method: 'POST'; path: '/api/v1/line/refer'; body: object }
+  | { endpoint: 'refer'; method: 'POST'; path: '/api/v1/refer'; body: object }
   | { endpoint: 'match'; method: 'POST'; path: '/api/v1/match'; body: object }
   | { endpoint: 'batch'; method: 'POST'; path: '/api/v1/batch'; body: object }
   | { endpoint: 'attenuation'; method: 'GET'; path: string; cableId: string; query: Record<string, number> };
