@@ -18,6 +18,9 @@ export const DEBIAN_PACKAGES = {
   postgresql: () => findPostgresBin() !== undefined,
   ngspice: () => existsSync('/usr/bin/ngspice'),
   chromium: () => existsSync('/usr/bin/chromium'),
+  // The runnable API examples (openapi/examples); any python3 or curl on PATH will do.
+  python3: () => capture('python3', ['--version']) !== undefined,
+  curl: () => capture('curl', ['--version']) !== undefined,
 };
 
 export function findPostgresBin() {
