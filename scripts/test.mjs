@@ -22,7 +22,7 @@ function cleanUp() {
 
 try {
   ensureNodeModules(root);
-  const needed = ['postgresql', 'ngspice', 'python3', 'curl'];
+  const needed = ['postgresql', 'ngspice', 'python3', 'python3-numpy', 'curl'];
   if (existsSync(path.join(root, 'tests', 'e2e'))) needed.push('chromium');
   ensureDebianPackages(needed);
 

@@ -21,6 +21,8 @@ export const DEBIAN_PACKAGES = {
   // The runnable API examples (openapi/examples); any python3 or curl on PATH will do.
   python3: () => capture('python3', ['--version']) !== undefined,
   curl: () => capture('curl', ['--version']) !== undefined,
+  // The fault-distance reference tests run numpy's inverse FFT through Debian's python3.
+  'python3-numpy': () => capture('python3', ['-c', 'import numpy']) !== undefined,
 };
 
 export function findPostgresBin() {

@@ -2,6 +2,18 @@ import type { OutgoingMail } from './mailer.ts';
 
 /** Wording of every message Gammaline sends; plain text, one place to read and change. */
 
+const MONTHS = ['January', 'February', 'March', 'April', 'May', 'June', 'July', 'August', 'September', 'October', 'November', 'December'];
+
+/**
+ * A moment as people read it in a letter, in UTC because the server does not know the reader's
+ * zone: "11 December 2026, 16:30 UTC".
+ * @example plainUtc(new Date('2026-12-11T16:30:00Z')) // '11 December 2026, 16:30 UTC'
+ */
+export function plainUtc(at: Date): string {
+  const two = (n: number) => String(n).padStart(2, '0');
+  return `${at.getUTCDate()} ${MONTHS[at.getUTCMonth()]} ${at.getUTCFullYear()}, ${two(at.getUTCHours())}:${two(at.getUTCMinutes())} UTC`;
+}
+
 export function invitationMail(p: { to: string; organisationId: string; organisationName: string; invitedBy: string; role: string; link: string; expiresAt: Date }): OutgoingMail {
   return {
     to: p.to,
@@ -13,7 +25,7 @@ export function invitationMail(p: { to: string; organisationId: string; organisa
       'Choose your name and password here:',
       p.link,
       '',
-      `The link works once and until ${p.expiresAt.toISOString()}.`,
+      `The link works once and until ${plainUtc(p.expiresAt)}.`,
       'If you did not expect this, ignore this message.',
     ].join('\n'),
   };
@@ -30,7 +42,7 @@ export function passwordResetMail(p: { to: string; organisationId: string; link:
       'Choose it here:',
       p.link,
       '',
-      `The link works once and until ${p.expiresAt.toISOString()}. Your current password keeps working until you choose a new one.`,
+      `The link works once and until ${plainUtc(p.expiresAt)}. Your current password keeps working until you choose a new one.`,
       'If you did not ask for this, ignore this message.',
     ].join('\n'),
   };

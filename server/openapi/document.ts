@@ -62,6 +62,9 @@ const DESCRIPTION = [
   'Every answer carries a `Request-Id` (your own `X-Request-Id`, when it is a short printable token, is echoed); quote it when you ask for support.',
   'Version 1 only grows: fields, operations and enum values may be added, nothing is renamed or removed; a retirement is announced with the `Deprecation` and `Sunset` header fields and in the changelog.',
   '',
+  '**Safety.** High power and a high SWR put high voltages on feed lines, connectors and matching components, and the bare conductors of open-wire, window and twin lead can burn on contact; antennas expose people to RF fields; towers are dangerous places to work. ' +
+    'Answers carry `cautions` where a computed figure crosses a usual limit: show them to the user. The figures are arithmetic on the numbers given and cannot see an installation: follow local electrical and building codes, the RF-exposure rules that apply, and licensed professional practice for tower work and high-power installations.',
+  '',
   'Errors are RFC 9457 problem details (`application/problem+json`). 400 means the request does not fit the schema; 422 means well-formed values that cannot be computed. The problem types:',
   '',
   problemTypeTable(),

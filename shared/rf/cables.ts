@@ -22,12 +22,24 @@ export interface CableType {
   maxVoltageRmsV: number | null;
   /** Where the figures come from, stated honestly. */
   source: string;
+  /** Where the voltage rating comes from, or why there is none (catalog entries). */
+  maxVoltageSource?: string;
+  /** Parallel-conductor line whose conductors are bare or thinly covered (open-wire, window line, twin lead). */
+  balanced?: boolean;
   notes?: string;
 }
 
-const MIL_FROM_MEMORY = 'Typical attenuation of the generic MIL-DTL-17 style type as published in common attenuation tables; values from memory, approximate (±15 %).';
-const GENERIC_FROM_MEMORY = 'Typical published attenuation for the generic type; values from memory, approximate (±20 %); individual products differ.';
-const OPEN_LINE_FROM_MEMORY = 'Typical handbook attenuation for dry line; values from memory, approximate (±30 %). Rain, ice and nearby objects raise the loss.';
+const MIL_FROM_MEMORY =
+  'MIL-DTL-17 (US Department of Defense detail specification, cables, radio frequency, flexible and semirigid), the slash sheet of this type, and the coaxial-cable attenuation table of the ARRL Handbook (chapter on transmission lines); values from memory, approximate (±15 %).';
+const GENERIC_FROM_MEMORY =
+  'Coaxial-cable attenuation table of the ARRL Handbook (chapter on transmission lines), the generic type; values from memory, approximate (±20 %); individual products differ.';
+const OPEN_LINE_FROM_MEMORY =
+  'Parallel-conductor line table of the ARRL Antenna Book (chapter on transmission lines), dry line; values from memory, approximate (±30 %). Rain, ice and nearby objects raise the loss.';
+const MIL_RATING = 'Maximum operating voltage (RMS) of the type in its MIL-DTL-17 slash sheet; from memory.';
+const GENERIC_RATING = 'Typical makers\' figure for the generic type (no MIL slash sheet exists); from memory, and lower for some products.';
+const NO_RATING_FOAM = 'No published rating for the generic type: it differs by maker. Give maxVoltageRmsV from the maker\'s datasheet to have it checked.';
+const NO_RATING_HARDLINE = 'No rating for the generic type: the connectors fitted set the limit. Give maxVoltageRmsV from their datasheet to have it checked.';
+const NO_RATING_BALANCED = 'No rating: the conductors of a balanced line are bare or thinly covered, so what limits it is arcing to whatever is nearby and burns to whoever touches it.';
 
 /**
  * Generic cable catalog. Attenuation fits were made from two remembered points (100 MHz and
@@ -44,6 +56,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 1.39, k2: 0.0118 },
     maxVoltageRmsV: 1900,
     source: MIL_FROM_MEMORY,
+    maxVoltageSource: MIL_RATING,
     notes: 'Solid polyethylene dielectric, solid centre conductor.',
   },
   {
@@ -54,6 +67,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 1.58, k2: 0.0156 },
     maxVoltageRmsV: 1900,
     source: MIL_FROM_MEMORY,
+    maxVoltageSource: MIL_RATING,
     notes: 'Stranded centre conductor; slightly more loss than RG-58/U.',
   },
   {
@@ -64,6 +78,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 1.13, k2: 0.00863 },
     maxVoltageRmsV: 600,
     source: GENERIC_FROM_MEMORY,
+    maxVoltageSource: GENERIC_RATING,
     notes: 'Foam dielectric, about 6 mm diameter; not a MIL type, so ratings vary by maker.',
   },
   {
@@ -74,6 +89,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 0.624, k2: 0.00652 },
     maxVoltageRmsV: 5000,
     source: MIL_FROM_MEMORY,
+    maxVoltageSource: MIL_RATING,
     notes: 'Solid polyethylene dielectric, about 10.3 mm diameter.',
   },
   {
@@ -84,6 +100,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 0.518, k2: 0.00395 },
     maxVoltageRmsV: null,
     source: GENERIC_FROM_MEMORY,
+    maxVoltageSource: NO_RATING_FOAM,
     notes: 'No common voltage rating for the generic foam type; check the maker\'s figure.',
   },
   {
@@ -94,6 +111,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 2.88, k2: 0.00411 },
     maxVoltageRmsV: 1500,
     source: MIL_FROM_MEMORY,
+    maxVoltageSource: MIL_RATING,
     notes: 'Miniature cable, about 2.8 mm diameter; for short jumpers and low power.',
   },
   {
@@ -104,6 +122,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 1.06, k2: 0.00599 },
     maxVoltageRmsV: 2300,
     source: MIL_FROM_MEMORY,
+    maxVoltageSource: MIL_RATING,
   },
   {
     id: 'rg-6',
@@ -113,6 +132,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 0.648, k2: 0.00084 },
     maxVoltageRmsV: null,
     source: GENERIC_FROM_MEMORY,
+    maxVoltageSource: NO_RATING_FOAM,
     notes: 'Foam-dielectric distribution cable; not rated for transmitting voltages.',
   },
   {
@@ -123,6 +143,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 0.619, k2: 0.00372 },
     maxVoltageRmsV: 5000,
     source: MIL_FROM_MEMORY,
+    maxVoltageSource: MIL_RATING,
     notes: 'Solid polyethylene dielectric type.',
   },
   {
@@ -133,6 +154,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 0.211, k2: 0.0012 },
     maxVoltageRmsV: null,
     source: GENERIC_FROM_MEMORY,
+    maxVoltageSource: NO_RATING_HARDLINE,
     notes: 'Corrugated copper outer conductor; voltage limits depend on the connectors fitted.',
   },
   {
@@ -143,6 +165,7 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     attenuation: { kind: 'k1k2', k1: 0.11, k2: 0.00078 },
     maxVoltageRmsV: null,
     source: GENERIC_FROM_MEMORY,
+    maxVoltageSource: NO_RATING_HARDLINE,
     notes: 'Corrugated copper outer conductor; voltage limits depend on the connectors fitted.',
   },
   {
@@ -161,6 +184,8 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     },
     maxVoltageRmsV: null,
     source: OPEN_LINE_FROM_MEMORY,
+    maxVoltageSource: NO_RATING_BALANCED,
+    balanced: true,
     notes: 'Flat polyethylene ribbon; loss rises sharply when wet or dirty.',
   },
   {
@@ -180,6 +205,8 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     },
     maxVoltageRmsV: null,
     source: OPEN_LINE_FROM_MEMORY,
+    maxVoltageSource: NO_RATING_BALANCED,
+    balanced: true,
     notes: 'Balanced line with windows cut in the web; keep it clear of metal.',
   },
   {
@@ -198,6 +225,8 @@ export const CABLE_CATALOG: readonly CableType[] = Object.freeze([
     },
     maxVoltageRmsV: null,
     source: OPEN_LINE_FROM_MEMORY,
+    maxVoltageSource: NO_RATING_BALANCED,
+    balanced: true,
     notes: 'Parallel wires on insulating spreaders; radiation loss grows with spacing and frequency.',
   },
 ] satisfies CableType[]);

@@ -20,6 +20,8 @@ export interface LineModel {
   lengthM: number;
   /** RMS voltage rating of the cable; when the computed peak exceeds it a caution is added. */
   maxVoltageRmsV?: number | null;
+  /** Parallel-conductor line with bare conductors: an unrated one gets a caution about them. */
+  balanced?: boolean;
   label?: string;
   /**
    * A matched loss lumped at the section's input end (connector, adapter, attenuator pad), in dB.
@@ -135,6 +137,7 @@ export function lineFromCable(cable: CableType, lengthM: number, frequencyHz: nu
   );
   model.maxVoltageRmsV = cable.maxVoltageRmsV;
   model.label = cable.designation;
+  if (cable.balanced) model.balanced = true;
   return model;
 }
 
@@ -381,6 +384,98 @@ function voltageCaution(maxVoltageV: number, ratingV: number, label: string | un
   );
 }
 
+/**
+ * RMS voltage above which a line with no known rating gets a caution. 500 V is below the lowest
+ * rating in the catalog (600 V for RG-8X), so an unrated line is warned about no later than a rated
+ * coax would be; it is about what 500 W reaches on a matched 450 Ω window line, and standing-wave
+ * peaks of this size arc across wet spreaders and give deep RF burns on contact (common practice).
+ * @example UNRATED_LINE_CAUTION_V // 500
+ */
+export const UNRATED_LINE_CAUTION_V = 500;
+
+function unratedCaution(maxVoltageV: number, line: LineModel): string {
+  const v = maxVoltageV.toPrecision(4);
+  if (line.balanced) {
+    return (
+      `Caution: the computed RMS voltage on ${line.label ?? 'the line'} reaches ${v} V, and its conductors are bare. At this voltage they can arc to anything near them and burn anyone who touches them, ` +
+      'even at a distance of a few millimetres. Keep the line out of reach and clear of metal, walls and wet surfaces, and follow local electrical codes and licensed practice for high-power installations.'
+    );
+  }
+  return (
+    `Caution: the computed RMS voltage on ${line.label ?? 'the line'} reaches ${v} V, and no voltage rating is known for it. Check the ratings of the cable and its connectors before transmitting at this power ` +
+    '(give maxVoltageRmsV to have them checked); voltage this high can break down insulation and burn anyone who touches an exposed conductor. Follow local electrical codes and licensed practice.'
+  );
+}
+
+/**
+ * The cautions for a line's highest RMS voltage: above its rating when it has one, else above
+ * UNRATED_LINE_CAUTION_V.
+ * @example voltageCautions(2200, lineFromCable(findCable('window-line-450')!, 30, 7.1e6)).length // 1
+ */
+export function voltageCautions(maxVoltageV: number, line: LineModel): string[] {
+  const rating = line.maxVoltageRmsV;
+  if (typeof rating === 'number' && Number.isFinite(rating)) return maxVoltageV > rating ? [voltageCaution(maxVoltageV, rating, line.label)] : [];
+  // An unrated connector carries the voltage of the cable beside it, which is cautioned already.
+  if (line.lengthM === 0 && line.fixedLossDb !== undefined) return [];
+  return maxVoltageV > UNRATED_LINE_CAUTION_V ? [unratedCaution(maxVoltageV, line)] : [];
+}
+
+/** RMS voltage and current maxima on a line and their distances from its input. */
+export interface LinePeaks {
+  maxVoltageV: number;
+  maxCurrentA: number;
+  maxVoltageAtM: number;
+  maxCurrentAtM: number;
+}
+
+/**
+ * The highest RMS voltage and current a line can carry for forward and reflected power read at its
+ * input, by the matched-loss model: forward power falls and reflected power rises by each section's
+ * matched loss towards the load, and the standing wave's upper envelope is
+ * |V| = |Z0|/√(Re Z0)·(√Pf + √Pr), |I| = (√Pf + √Pr)/√(Re Z0), largest at one end of each section
+ * (a sum of exponentials is convex). A reading has no phase, so the wave's crest may lie up to a
+ * quarter wavelength from the place given: these are the most the line can carry. Cautions as for a
+ * transformed line (voltageCautions), prefixed by the section when there are several.
+ * @example readingPeaks([lineFromCable(findCable('window-line-450')!, 30, 7.1e6)], 1500, 800).peaks.maxVoltageV // ≈ 2.1 kV
+ */
+export function readingPeaks(sectionsFromInput: readonly LineModel[], forwardPowerW: number, reflectedPowerW: number): { peaks: LinePeaks; cautions: string[] } {
+  const peaks: LinePeaks = { maxVoltageV: -1, maxCurrentA: -1, maxVoltageAtM: 0, maxCurrentAtM: 0 };
+  const cautions: string[] = [];
+  let pf = forwardPowerW;
+  let pr = reflectedPowerW;
+  let offsetM = 0;
+  sectionsFromInput.forEach((line, k) => {
+    const z0 = line.characteristicOhm;
+    const lossDb = DB_PER_NEPER * line.propagationPerM.re * line.lengthM + (line.fixedLossDb ?? 0);
+    const ratio = 10 ** (-lossDb / 10);
+    const vScale = Math.hypot(z0.re, z0.im) / Math.sqrt(z0.re);
+    const iScale = 1 / Math.sqrt(z0.re);
+    let sectionMaxV = 0;
+    for (const [atM, f, r] of [
+      [offsetM, pf, pr],
+      [offsetM + line.lengthM, pf * ratio, pr / ratio],
+    ] as const) {
+      const envelope = Math.sqrt(f) + Math.sqrt(r);
+      const v = vScale * envelope;
+      const i = iScale * envelope;
+      sectionMaxV = Math.max(sectionMaxV, v);
+      if (v > peaks.maxVoltageV) {
+        peaks.maxVoltageV = v;
+        peaks.maxVoltageAtM = atM;
+      }
+      if (i > peaks.maxCurrentA) {
+        peaks.maxCurrentA = i;
+        peaks.maxCurrentAtM = atM;
+      }
+    }
+    for (const c of voltageCautions(sectionMaxV, line)) cautions.push(sectionsFromInput.length > 1 ? `Section ${k + 1}: ${c}` : c);
+    pf *= ratio;
+    pr /= ratio;
+    offsetM += line.lengthM;
+  });
+  return { peaks, cautions };
+}
+
 function resultFromSolution(sol: SectionSolution, line: LineModel, powerW: number | undefined): LineResult {
   const electricalRad = sol.beta * sol.lengthM;
   const matchedLossDb = sol.lossNp * DB_PER_NEPER;
@@ -438,10 +533,7 @@ function resultFromSolution(sol: SectionSolution, line: LineModel, powerW: numbe
     }
   }
   result.peaks = { maxVoltageV: Math.sqrt(maxV2), maxCurrentA: Math.sqrt(maxI2), maxVoltageAtM: maxVAt, maxCurrentAtM: maxIAt };
-  const rating = line.maxVoltageRmsV;
-  if (typeof rating === 'number' && Number.isFinite(rating) && result.peaks.maxVoltageV > rating) {
-    result.cautions.push(voltageCaution(result.peaks.maxVoltageV, rating, line.label));
-  }
+  result.cautions.push(...voltageCautions(result.peaks.maxVoltageV, line));
   return result;
 }
 

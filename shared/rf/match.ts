@@ -10,12 +10,22 @@ export interface MatchElement {
   reactanceOhm: number;
   valueH?: number;
   valueF?: number;
+  /** With a power: RMS voltage across the element, V. */
+  voltageRmsV?: number;
+  /** With a power: peak voltage across it, √2 · RMS (a sine wave), V. */
+  voltagePeakV?: number;
+  /** With a power: RMS current through it, A. */
+  currentRmsA?: number;
+  /** With a power: reactive power X·I², var; positive for an inductor, negative for a capacitor. */
+  reactivePowerVar?: number;
 }
 
 /** One L-network; elements are listed from the source toward the load. */
 export interface MatchSolution {
   topology: 'shuntAtLoad' | 'seriesAtLoad';
   elements: MatchElement[];
+  /** Which element faces the source: the first of `elements`. */
+  sourceSide: 'series' | 'shunt';
   /** Impedance looking into the network from the source, recomputed from the elements. */
   inputOhm: Complex;
 }
@@ -110,7 +120,64 @@ export function lNetworkSolutions(loadOhm: Complex, sourceOhm: Complex, frequenc
     if (!(Number.isFinite(inputOhm.re) && Number.isFinite(inputOhm.im))) {
       throw new RfInputError('loadOhm', 'No finite matching network follows for this load; check the load and source impedances.');
     }
-    solutions.push({ topology: c.topology, elements, inputOhm });
+    const first = elements[0];
+    solutions.push({ topology: c.topology, elements, sourceSide: first ? first.position : c.topology === 'shuntAtLoad' ? 'series' : 'shunt', inputOhm });
   }
   return solutions;
 }
+
+/**
+ * What each element of an L-network must stand when `powerW` (RMS) flows into the network from the
+ * source: the input current |I| = √(P / Re Zin) is followed element by element towards the load by
+ * Kirchhoff's laws (a series element carries the current and drops jX·I; a shunt element has the
+ * voltage across it and draws V/(jX)). The network is lossless, so the load receives all of P.
+ * Returns new solutions; the inputs are not changed.
+ * @example withStresses(lNetworkSolutions({ re: 200, im: 0 }, { re: 50, im: 0 }, 7.1e6), 100)[0].elements[0].currentRmsA // ≈ 1.414
+ */
+export function withStresses(solutions: readonly MatchSolution[], powerW: number): MatchSolution[] {
+  if (!(powerW >= 0) || !Number.isFinite(powerW)) throw new RfInputError('powerW', 'Power cannot be negative; give the power into the network in watts (0 or more).');
+  return solutions.map((s) => {
+    const zin = s.inputOhm;
+    if (!(zin.re > 0)) {
+      throw new RfInputError('loadOhm', 'This network presents no resistance to the source, so no power can flow into it; give the load some resistance.');
+    }
+    // Currents and voltages as phasors, the input current taken as the phase reference.
+    let ir = Math.sqrt(powerW / zin.re);
+    let ii = 0;
+    let vr = ir * zin.re;
+    let vi = ir * zin.im;
+    const elements = s.elements.map((e) => {
+      const x = e.reactanceOhm;
+      let vAbs: number;
+      let iAbs: number;
+      if (e.position === 'series') {
+        // Drop across it: jX·I.
+        const dr = -x * ii;
+        const di = x * ir;
+        vr -= dr;
+        vi -= di;
+        iAbs = Math.hypot(ir, ii);
+        vAbs = Math.hypot(dr, di);
+      } else {
+        // Drawn by it: V/(jX) = −jV/X.
+        const cr = vi / x;
+        const ci = -vr / x;
+        ir -= cr;
+        ii -= ci;
+        vAbs = Math.hypot(vr, vi);
+        iAbs = Math.hypot(cr, ci);
+      }
+      return { ...e, voltageRmsV: vAbs, voltagePeakV: Math.SQRT2 * vAbs, currentRmsA: iAbs, reactivePowerVar: e.position === 'series' ? x * iAbs * iAbs : (vAbs * vAbs) / x };
+    });
+    return { ...s, elements };
+  });
+}
+
+/**
+ * The caution every answer with component stresses carries: the figures are the minimum a part must
+ * stand, not its rating.
+ */
+export const COMPONENT_STRESS_CAUTION =
+  'Caution: these voltages and currents are what each component carries with this load at this power, in an ideal network. Choose parts rated with margin above them (common practice: twice the voltage or more for capacitors, ' +
+  'and inductors that stay cool at the current), allow for a load that changes with weather or band, and use your own judgement as the builder. High RF voltages across a network can arc and cause RF burns; ' +
+  'work on it only with the transmitter off and follow local codes and licensed practice.';

@@ -1,11 +1,12 @@
 import { z } from 'zod';
 import { LineRequestSchema, MatchRequestSchema, MismatchRequestSchema, ReferRequestSchema, ReflectionRequestSchema } from './calc.ts';
+import { FaultDistanceRequestSchema } from './fault.ts';
 
 /** Most items one JSON batch may hold; bigger jobs stream as NDJSON. */
 export const MAX_BATCH_ITEMS = 20_000;
 
 /** The calculations a batch item may name, with the request body each takes. */
-export const BATCH_OPERATIONS = ['mismatch', 'reflection', 'line', 'refer', 'match'] as const;
+export const BATCH_OPERATIONS = ['mismatch', 'reflection', 'line', 'refer', 'match', 'fault-distance'] as const;
 export type BatchOperation = (typeof BATCH_OPERATIONS)[number];
 
 /** For the OpenAPI document: each `op` with the body of its single endpoint. */
@@ -16,10 +17,11 @@ export const BatchItemSchema = z
     z.strictObject({ op: z.literal('line'), input: LineRequestSchema }),
     z.strictObject({ op: z.literal('refer'), input: ReferRequestSchema }),
     z.strictObject({ op: z.literal('match'), input: MatchRequestSchema }),
+    z.strictObject({ op: z.literal('fault-distance'), input: FaultDistanceRequestSchema }),
   ])
   .meta({
     id: 'BatchItem',
-    description: 'One calculation: `op` is the calculation\'s name as in its path (`mismatch` = POST /api/v1/mismatch, `reflection`, `line`, `refer`, `match`) and `input` is the body that endpoint takes.',
+    description: 'One calculation: `op` is the calculation\'s name as in its path (`mismatch` = POST /api/v1/mismatch, `reflection`, `line`, `refer`, `match`, `fault-distance`) and `input` is the body that endpoint takes.',
     example: { op: 'mismatch', input: { swr: 1.5 } },
   });
 

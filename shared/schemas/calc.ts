@@ -337,6 +337,14 @@ export const ReferResultSchema = z
       .array(z.number())
       .optional()
       .meta({ description: 'When the line was given as sections: the matched loss of each at the frequency, from the transmitter end; they add up to `matchedLossDb`.' }),
+    peaks: z
+      .object({ maxVoltageV: z.number(), maxCurrentA: z.number(), maxVoltageAtM: z.number(), maxCurrentAtM: z.number() })
+      .optional()
+      .meta({
+        description:
+          'When the reading has powers and the line is described (not only `matchedLossDb`): the highest RMS voltage and current the line can carry, from the standing wave\'s envelope (forward and reflected waves in phase), and where from the input; a reading has no phase, so the crest may lie up to a quarter wavelength from that place.',
+      }),
+    cautions: z.array(z.string()).meta({ description: 'Safety cautions, as on POST /api/v1/line: a voltage above the line\'s rating, or high on a line with none. Show them to the user.' }),
   })
   .meta({ id: 'ReferResult' });
 
@@ -392,8 +400,9 @@ export const MatchRequestSchema = z
     frequencyHz: FrequencyHz,
     loadOhm: ImpedanceSchema.meta({ description: 'Load impedance to be matched.' }),
     sourceOhm: ImpedanceSchema.default(50).meta({ description: 'Source impedance; the network presents its conjugate. Default 50.' }),
+    powerW: PowerW.optional().meta({ description: 'Power delivered into the network from the source (RMS W). Adds to each element the voltage across it and the current through it, and a caution.', example: 100 }),
   })
-  .meta({ id: 'MatchRequest', example: { frequencyHz: 3_650_000, loadOhm: { re: 12, im: -30 }, sourceOhm: 50 } });
+  .meta({ id: 'MatchRequest', example: { frequencyHz: 3_650_000, loadOhm: { re: 12, im: -30 }, sourceOhm: 50, powerW: 100 } });
 
 export const MatchElementSchema = z
   .object({
@@ -402,6 +411,10 @@ export const MatchElementSchema = z
     reactanceOhm: z.number(),
     valueH: z.number().optional(),
     valueF: z.number().optional(),
+    voltageRmsV: z.number().optional().meta({ description: 'With `powerW`: RMS voltage across the element, V.' }),
+    voltagePeakV: z.number().optional().meta({ description: 'With `powerW`: peak voltage across it (√2 × RMS), V.' }),
+    currentRmsA: z.number().optional().meta({ description: 'With `powerW`: RMS current through it, A.' }),
+    reactivePowerVar: z.number().optional().meta({ description: 'With `powerW`: reactive power X·I² it circulates, var (positive for an inductor, negative for a capacitor).' }),
   })
   .meta({ id: 'MatchElement' });
 
@@ -412,9 +425,11 @@ export const MatchResultSchema = z
         .object({
           topology: z.enum(['shuntAtLoad', 'seriesAtLoad']).meta({ description: '`shuntAtLoad`: shunt element across the load, series element toward the source; `seriesAtLoad`: the reverse.' }),
           elements: z.array(MatchElementSchema).meta({ description: 'Ordered from the source to the load.' }),
+          sourceSide: z.enum(['series', 'shunt']).meta({ description: 'Which element faces the source (the first of `elements`).' }),
           inputOhm: ComplexSchema.meta({ description: 'Input impedance of network + load (the source\'s conjugate).' }),
         })
         .meta({ id: 'MatchSolution' }),
     ),
+    cautions: z.array(z.string()).meta({ description: 'Safety cautions (with `powerW`: component ratings need margin above the figures). Show them to the user.' }),
   })
   .meta({ id: 'MatchResult' });

@@ -42,6 +42,15 @@ export const sweepOptionFields = {
   mask: SweepMaskSchema.optional(),
 };
 
+/** What may change on a stored sweep: the figures its points are judged by (the points never change). */
+export const UpdateSweepSchema = z
+  .strictObject({
+    thresholdSwr: sweepOptionFields.thresholdSwr,
+    mask: SweepMaskSchema.nullable().optional().meta({ description: 'A new acceptance figure over a frequency range; `null` removes it.' }),
+  })
+  .refine((v) => Object.keys(v).length > 0, { message: 'send thresholdSwr, mask or both', params: { shape: true } })
+  .meta({ id: 'UpdateSweep', description: 'The bands and the verdict are worked out again from the stored points.', example: { mask: { maxSwr: 1.5, startHz: 7_050_000, stopHz: 7_150_000 } } });
+
 type SweepOptionValues = { line?: unknown; feedlineId?: unknown; direction?: unknown };
 
 /** The rules that tie the option fields together, shared by the JSON and multipart forms. */

@@ -4,3 +4,4 @@ export * from './touchstone.ts';
 export * from './csv.ts';
 export * from './analyse.ts';
 export * from './move.ts';
+export * from './fault-distance.ts';

@@ -2,10 +2,15 @@ import type { Complex } from '../rf/complex.ts';
 import { SweepFormatError } from './errors.ts';
 import { impedanceAgainst, MAX_SWEEP_POINTS, reflectionAgainst, type Sweep, type SweepPoint } from './points.ts';
 
-// Rules from the Touchstone File Format Specification 2.0 (IBIS Open Forum), as summarised in the
-// project's TOUCHSTONE.md notes; "rule n" in comments below refers to that summary's numbered list.
+// Rules from the published open specification: Touchstone File Format Specification, Version 2.0
+// (IBIS Open Forum, ratified 2009; Version 2.1 keeps these rules), which also describes Version 1
+// files. Comments below cite it by its section headings; the headings, and the rule marked so, are
+// from memory: "General syntax rules" (case-insensitive, ASCII, `!` comments), "Option Line"
+// (`# <unit> <parameter> <format> R <n>`, defaults GHz S MA R 50, only the first one counts; Version 1
+// Z and Y data normalized to R), "Network Data" (frequency, then the value pairs), and the keywords
+// "[Version]", "[Number of Ports]", "[Number of Frequencies]", "[Reference]", "[Network Data]", "[End]".
 
-/** The settings of a Touchstone option line after defaults are applied (rule 3). */
+/** The settings of a Touchstone option line after defaults are applied (§ Option Line). */
 export interface TouchstoneOptions {
   frequencyUnit: 'Hz' | 'kHz' | 'MHz' | 'GHz';
   parameter: 'S' | 'Y' | 'Z';
@@ -39,7 +44,7 @@ function parseNumber(token: string, lineNo: number, what: string): number {
 
 /**
  * Reads a Touchstone option line, `# <unit> <parameter> <format> R <n>`, fields in any order, any
- * missing (defaults GHz, S, MA, R 50: rule 3). H and G parameters are refused: they exist only for
+ * missing (defaults GHz, S, MA, R 50: § Option Line). H and G parameters are refused: they exist only for
  * two-ports.
  * @example parseOptionLine('# MHz S RI R 50', 3) // { frequencyUnit: 'MHz', parameter: 'S', format: 'RI', referenceOhm: 50 }
  */
@@ -86,7 +91,7 @@ export function parseOptionLine(content: string, lineNo: number): TouchstoneOpti
   return { frequencyUnit: unit ?? 'GHz', parameter: parameter ?? 'S', format: format ?? 'MA', referenceOhm: referenceOhm ?? 50 };
 }
 
-/** Parses the value pair of a data line into a complex number according to the format (rule 3). */
+/** Parses the value pair of a data line into a complex number according to the format (§ Option Line). */
 function valueFromPair(a: number, b: number, format: TouchstoneOptions['format']): Complex {
   if (format === 'RI') return { re: a, im: b };
   const magnitude = format === 'DB' ? 10 ** (a / 20) : a;
@@ -101,8 +106,8 @@ function valueFromPair(a: number, b: number, format: TouchstoneOptions['format']
 
 /**
  * Turns one S, Z or Y value into a sweep point against R. Version 1 Z and Y data are normalized
- * to R (rule 6). Version 2 Z and Y data are taken in ohms and siemens, NOT normalized: the summary
- * marks that rule as from memory (rule 7), so if the specification's text says otherwise this is
+ * to R (§ Option Line). Version 2 Z and Y data are taken in ohms and siemens, NOT normalized (§ [Network Data]; this
+ * reading of the specification is from memory), so if the specification's text says otherwise this is
  * the one place to change, and the tests pin both behaviours.
  */
 function pointFromValue(
@@ -185,7 +190,7 @@ export function parseTouchstone(text: string): Sweep {
     const bang = raw.indexOf('!');
     const content = (bang === -1 ? raw : raw.slice(0, bang)).trim();
     if (content === '') continue;
-    // Comments may carry an operator's note in any script; the data itself must be ASCII (rule 1).
+    // Comments may carry an operator's note in any script; the data itself must be ASCII (§ General syntax rules).
     if (NON_ASCII.test(content)) {
       throw new SweepFormatError(lineNo, 'the line holds non-ASCII characters outside a comment; Touchstone data is plain ASCII. Is this a binary file or a different format?');
     }
@@ -228,7 +233,7 @@ export function parseTouchstone(text: string): Sweep {
     }
 
     if (content[0] === '#') {
-      // Only the first option line counts (rule 4).
+      // Only the first option line counts (§ Option Line).
       if (options === undefined) {
         options = parseOptionLine(content, lineNo);
         unitHz = (UNITS[options.frequencyUnit.toLowerCase()] as { hz: number }).hz;
@@ -306,7 +311,7 @@ export function parseTouchstone(text: string): Sweep {
       continue;
     }
 
-    // Anything else is a data line: frequency, then one value pair (rule 5).
+    // Anything else is a data line: frequency, then one value pair (§ Network Data).
     if (options === undefined) {
       throw new SweepFormatError(lineNo, 'data comes before the option line; add one such as "# MHz S RI R 50" above the data.');
     }

@@ -139,7 +139,9 @@ describe('POST /api/v1/line', () => {
     const spec = { impedanceOhm: 50, velocityFactor: 0.66, lossDbPer100m: 2.5, lengthM: 30 };
     const free = await post('/line', { frequencyHz: 7.1e6, line: spec, loadOhm: 2000, powerW: 1500 }).expect(200);
     const peak = free.body.peaks.maxVoltageV as number;
-    expect(free.body.cautions).toEqual([]);
+    // No rating given: above 500 V RMS the answer says that none is known instead of saying nothing.
+    expect(free.body.cautions).toHaveLength(1);
+    expect(free.body.cautions[0]).toMatch(/no voltage rating is known/);
     const rated = await post('/line', { frequencyHz: 7.1e6, line: { ...spec, maxVoltageRmsV: Math.floor(peak) }, loadOhm: 2000, powerW: 1500 }).expect(200);
     expect(rated.body.peaks.maxVoltageV).toBe(peak);
     expect(rated.body.cautions).toHaveLength(1);
@@ -160,6 +162,20 @@ describe('POST /api/v1/line', () => {
     expect(raised.body.cautions).toHaveLength(1);
     expect(raised.body.cautions[0]).toContain('rating of 600 V RMS');
     await post('/line', { frequencyHz: 7.1e6, line: { ...spec, maxVoltageRmsV: 0 }, loadOhm: 2000 }).expect(422);
+  });
+
+  it('cautions that the bare conductors of an unrated balanced line carry a high voltage', async () => {
+    // 1,500 W into 30 m of 450 Ω window line ending in 3,150 Ω (SWR 7 at the load). By hand, for a
+    // nearly lossless line: Vmax ≈ √(P·Z0·SWR) = √(1500 · 450 · 7) ≈ 2,174 V RMS (common practice).
+    const res = await post('/line', { frequencyHz: 7.1e6, line: { cableId: 'window-line-450', lengthM: 30 }, loadOhm: 3150, powerW: 1500 }).expect(200);
+    expect(res.body.peaks.maxVoltageV).toBeGreaterThan(2100);
+    expect(res.body.peaks.maxVoltageV).toBeLessThan(2200);
+    expect(res.body.cautions).toHaveLength(1);
+    expect(res.body.cautions[0]).toMatch(/450 Ω window line reaches 21\d\d V/);
+    expect(res.body.cautions[0]).toMatch(/conductors are bare/);
+    expect(res.body.cautions[0]).toMatch(/licensed practice/);
+    // Below the 500 V threshold (100 W matched: √(100 · 450) ≈ 212 V) it says nothing.
+    expect((await post('/line', { frequencyHz: 7.1e6, line: { cableId: 'window-line-450', lengthM: 30 }, loadOhm: 450, powerW: 100 }).expect(200)).body.cautions).toEqual([]);
   });
 
   it('says how to describe a line when it is neither an object nor sections, and only "too small" for no sections', async () => {
@@ -212,6 +228,33 @@ describe('POST /api/v1/refer', () => {
     expect(res.body.lineDissipationW).toBeGreaterThan(0);
   });
 
+  it('gives the voltage and current maxima and the same cautions as /line when the reading carries power', async () => {
+    // By hand, lossless 450 Ω line, 2,000 W forward and 500 W reflected (|Γ| 0.5, SWR 3, 1,500 W net):
+    // Vmax = √Z0·(√Pf + √Pr) = √(P·Z0·SWR) = √(1500 · 450 · 3) = 1,423.0 V; Imax = √(P·SWR/Z0) = √10 A (common practice).
+    const line = { impedanceOhm: 450, velocityFactor: 0.91, lossDbPer100m: 0, lengthM: 30 };
+    const res = await post('/refer', { frequencyHz: 7.1e6, line, direction: 'inputToLoad', reading: { forwardPowerW: 2000, reflectedPowerW: 500 } }).expect(200);
+    expect(res.body.peaks.maxVoltageV).toBeCloseTo(Math.sqrt(1500 * 450 * 3), 9);
+    expect(res.body.peaks.maxCurrentA).toBeCloseTo(Math.sqrt(10), 12);
+    expect(res.body.cautions).toHaveLength(1);
+    expect(res.body.cautions[0]).toMatch(/reaches 1423 V, and no voltage rating is known/);
+    // The window line of the catalog: bare conductors, as /line says.
+    const window = await post('/refer', { frequencyHz: 7.1e6, line: { cableId: 'window-line-450', lengthM: 30 }, direction: 'inputToLoad', reading: { forwardPowerW: 2000, reflectedPowerW: 500 } }).expect(200);
+    expect(window.body.cautions[0]).toMatch(/conductors are bare/);
+    // /line on a load with the same SWR at the same power reaches no more than the envelope /refer gives.
+    const through = await post('/line', { frequencyHz: 7.1e6, line: { cableId: 'window-line-450', lengthM: 30 }, loadOhm: 1350, powerW: 1500 }).expect(200);
+    expect(through.body.peaks.maxVoltageV).toBeLessThanOrEqual(window.body.peaks.maxVoltageV * (1 + 1e-9));
+    expect(through.body.peaks.maxVoltageV / window.body.peaks.maxVoltageV).toBeGreaterThan(0.97);
+    // A rated cable is checked against its rating; an SWR reading or a bare matched loss carries no power.
+    // √50 · (√5000 + √1250) ≈ 750 V RMS against RG-8X's 600 V.
+    const rated = await post('/refer', { frequencyHz: 7.1e6, line: { cableId: 'rg-8x', lengthM: 30 }, direction: 'inputToLoad', reading: { forwardPowerW: 5000, reflectedPowerW: 1250 } }).expect(200);
+    expect(rated.body.cautions[0]).toContain('rating of 600 V RMS');
+    const swr = await post('/refer', { frequencyHz: 7.1e6, line, direction: 'inputToLoad', reading: { swr: 3 } }).expect(200);
+    expect(swr.body.peaks).toBeUndefined();
+    expect(swr.body.cautions).toEqual([]);
+    const bare = await post('/refer', { matchedLossDb: 1, direction: 'inputToLoad', reading: { forwardPowerW: 2000, reflectedPowerW: 500 } }).expect(200);
+    expect(bare.body.peaks).toBeUndefined();
+  });
+
   it('wants either matchedLossDb or frequencyHz + line (400: the body does not fit either form)', async () => {
     await post('/refer', { direction: 'inputToLoad', reading: { swr: 2 } }).expect(400);
     await post('/refer', { matchedLossDb: 1, frequencyHz: 1e6, direction: 'inputToLoad', reading: { swr: 2 } }).expect(400);
@@ -219,6 +262,25 @@ describe('POST /api/v1/refer', () => {
 });
 
 describe('POST /api/v1/match', () => {
+  it('with powerW gives each element its voltage, current and reactive power, and a caution about ratings', async () => {
+    // By hand (Q = √3 L-network, 200 Ω to 50 Ω at 100 W): series 1.4142 A and 122.47 V, shunt 141.42 V and 1.2247 A.
+    const res = await post('/match', { frequencyHz: 7.1e6, loadOhm: 200, powerW: 100 }).expect(200);
+    expect(res.body.cautions).toHaveLength(1);
+    expect(res.body.cautions[0]).toMatch(/margin above them/);
+    for (const s of res.body.solutions) {
+      expect(s.sourceSide).toBe('series');
+      const [series, shunt] = s.elements;
+      expect(series.currentRmsA).toBeCloseTo(Math.SQRT2, 9);
+      expect(series.voltageRmsV).toBeCloseTo(50 * Math.sqrt(3) * Math.SQRT2, 9);
+      expect(shunt.voltageRmsV).toBeCloseTo(Math.sqrt(20000), 9);
+      expect(shunt.voltagePeakV).toBeCloseTo(200, 9);
+      expect(shunt.currentRmsA).toBeCloseTo(Math.sqrt(1.5), 9);
+    }
+    const plain = await post('/match', { frequencyHz: 7.1e6, loadOhm: 200 }).expect(200);
+    expect(plain.body.cautions).toEqual([]);
+    expect(plain.body.solutions[0].elements[0].voltageRmsV).toBeUndefined();
+  });
+
   it('lists L-networks whose input is the source impedance', async () => {
     const res = await post('/match', { frequencyHz: 3.65e6, loadOhm: { re: 12, im: -30 } }).expect(200);
     expect(res.body.solutions.length).toBeGreaterThan(0);

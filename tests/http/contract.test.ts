@@ -62,6 +62,10 @@ function validBody(r: Route): Record<string, unknown> {
   return structuredClone(body) as Record<string, unknown>;
 }
 
+function faultExample(): Record<string, unknown> {
+  return structuredClone(resolve(doc.components.schemas.FaultDistanceRequest).example) as Record<string, unknown>;
+}
+
 /**
  * Physically impossible or uncomputable values for every calculation (each a well-formed request):
  * the answer is 422 naming the field. Impossibilities are the trade's (common practice): SWR below 1,
@@ -76,6 +80,9 @@ const IMPOSSIBLE: Record<string, { body: object; field: string }> = {
   'POST /api/v1/match': { body: { frequencyHz: 0, loadOhm: { re: 12, im: -30 } }, field: 'frequencyHz' },
   'POST /api/v1/feedlines/{id}/line': { body: { frequencyHz: -7_100_000, loadOhm: 50 }, field: 'frequencyHz' },
   'POST /api/v1/feedlines/{id}/refer': { body: { frequencyHz: 7_100_000, direction: 'inputToLoad', reading: { swr: 0.8 } }, field: 'reading.swr' },
+  // Farther than the documented sweep's unambiguous range c·VF/(2·step), about 24.7 m.
+  'POST /api/v1/fault-distance': { body: { ...faultExample(), maxDistanceM: 1000 }, field: 'maxDistanceM' },
+  'POST /api/v1/sweeps/{id}/fault-distance': { body: { line: { velocityFactor: 0.66 }, maxDistanceM: 1000 }, field: 'maxDistanceM' },
 };
 
 /** A value of another JSON type than the one given. */
@@ -108,6 +115,8 @@ beforeAll(async () => {
   admin = await ctx.adminAgent();
   ids.cables = (await admin.post('/api/v1/cables').send({ ...VALID_BODIES['POST /api/v1/cables'], id: 'account-contract-reel' }).expect(201)).body.id;
   ids.feedlines = (await admin.post('/api/v1/feedlines').send({ name: 'Contract run', sections: [{ cableId: 'rg-213', lengthM: 20 }] }).expect(201)).body.id;
+  // A stored sweep distance to fault can use: the documented fault-distance request's evenly spaced points.
+  ids.sweeps = (await admin.post('/api/v1/sweeps').send({ name: 'Contract sweep', points: faultExample().points }).expect(201)).body.id;
   ids.keys = ctx.seed.developerKeyId;
   ids.members = ctx.seed.developerId;
 });

@@ -417,7 +417,16 @@ beforeAll(async () => {
     body: JSON.stringify(exampleOf(doc.components.schemas.CreateFeedline!)),
   });
   expect(feedline.status).toBe(201);
+  const sweep = await send(live.base, {
+    method: 'POST',
+    path: '/api/v1/sweeps',
+    headers: { ...key, 'content-type': 'application/json' },
+    body: JSON.stringify({ name: 'Hostile feeder sweep', points: (exampleOf(doc.components.schemas.FaultDistanceRequest!) as { points: unknown[] }).points }),
+  });
+  expect(sweep.status).toBe(201);
   const ids: Record<string, string> = {
+    '/api/v1/sweeps/{id}/fault-distance': JSON.parse(sweep.text).id,
+    '/api/v1/sweeps/{id}': JSON.parse(sweep.text).id,
     '/api/v1/cables/{id}': JSON.parse(cable.text).id,
     '/api/v1/feedlines/{id}': JSON.parse(feedline.text).id,
     '/api/v1/feedlines/{id}/line': JSON.parse(feedline.text).id,
@@ -465,7 +474,7 @@ describe('generated hostile bodies (RFC 9457 answers, never 5xx, never a hang)',
   it('finds every JSON endpoint of the OpenAPI document, with an example body the schema walk understands', () => {
     expect(endpoints.length).toBeGreaterThanOrEqual(20);
     expect(endpoints.filter((e) => e.calculation).map((e) => e.path)).toEqual(
-      expect.arrayContaining(['/api/v1/mismatch', '/api/v1/reflection', '/api/v1/line', '/api/v1/refer', '/api/v1/match', '/api/v1/batch']),
+      expect.arrayContaining(['/api/v1/mismatch', '/api/v1/reflection', '/api/v1/line', '/api/v1/refer', '/api/v1/match', '/api/v1/fault-distance', '/api/v1/batch']),
     );
     for (const e of endpoints) expect(e.example, `${e.method} ${e.path}`).toBeTypeOf('object');
   });

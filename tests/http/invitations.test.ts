@@ -30,6 +30,8 @@ async function tokenFromLatestMail(address: string, path: string): Promise<strin
   const message = await admin.get(`/api/v1/mail/${latest!.id}`).expect(200);
   const match = new RegExp(`http://gammaline\\.test${path}\\?token=([A-Za-z0-9_-]{43})`).exec(message.body.text as string);
   expect(match, message.body.text).not.toBeNull();
+  // The expiry as people read it in a letter, never a raw ISO timestamp.
+  expect(message.body.text).toMatch(/works once and until \d{1,2} [A-Z][a-z]+ \d{4}, \d{2}:\d{2} UTC\./);
   return match![1]!;
 }
 

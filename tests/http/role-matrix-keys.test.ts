@@ -49,7 +49,7 @@ const ORG_B_PASSWORD = 'larkspur-fell-passphrase';
 
 let ctx: TestApp;
 /** Organisation A (the seeded Kestrel Ridge club): the ids of one of each of its resources. */
-const a = { cable: '', feedline: '', sweep: '', invitation: '', invitationEmail: 'sorrel.dane@kestrel-ridge.example', mail: '', member: '', key: '', keyDisplayStart: '' };
+const a = { cable: '', feedline: '', sweep: '', faultSweep: '', invitation: '', invitationEmail: 'sorrel.dane@kestrel-ridge.example', mail: '', member: '', key: '', keyDisplayStart: '' };
 let revokedKey: { id: string; secret: string };
 let expiredKey: { id: string; secret: string };
 let orgB: { id: string; keySecret: string; keyId: string; feedline: string };
@@ -91,6 +91,7 @@ function urlFor(r: Route, id?: string): string {
     '/api/v1/feedlines/{id}/refer': a.feedline,
     '/api/v1/sweeps/{id}': a.sweep,
     '/api/v1/sweeps/{id}/points.csv': a.sweep,
+    '/api/v1/sweeps/{id}/fault-distance': a.faultSweep,
     '/api/v1/keys/{id}': a.key,
     '/api/v1/members/{id}': a.member,
     '/api/v1/invitations/{id}': a.invitation,
@@ -128,6 +129,9 @@ beforeAll(async () => {
   a.cable = (await admin.post('/api/v1/cables').send({ id: 'account-kestrel-reel', designation: 'Kestrel reel', impedanceOhm: 50, velocityFactor: 0.82, attenuation: { kind: 'k1k2', k1: 0.7, k2: 0.004 }, source: 'invented for a test' }).expect(201)).body.id;
   a.feedline = (await request(ctx.app).post('/api/v1/feedlines').set(ctx.auth).send({ name: 'Kestrel matrix run', sections: [{ cableId: a.cable, lengthM: 20 }] }).expect(201)).body.id;
   a.sweep = (await request(ctx.app).post('/api/v1/sweeps').set(ctx.auth).send(resolveSchema(doc.components.schemas.CreateSweepJson).example as object).expect(201)).body.id;
+  // Distance to fault needs evenly spaced points: those of the documented fault-distance request.
+  const faultPoints = (resolveSchema(doc.components.schemas.FaultDistanceRequest).example as { points: object[] }).points;
+  a.faultSweep = (await request(ctx.app).post('/api/v1/sweeps').set(ctx.auth).send({ name: 'Kestrel feeder sweep', points: faultPoints }).expect(201)).body.id;
   a.invitation = (await admin.post('/api/v1/invitations').send({ email: a.invitationEmail }).expect(201)).body.id;
   a.mail = (await admin.get('/api/v1/mail').query({ to: a.invitationEmail }).expect(200)).body.messages[0].id;
   a.member = ctx.seed.developerId;

@@ -8,8 +8,8 @@ import { DEMO_FEEDLINE } from '../../server/db/seed.ts';
 import { createTestApp, type TestApp } from '../helpers/app.ts';
 import { dipoleImpedance, dipoleTouchstone, DIPOLE_FREQUENCIES_HZ, type Format, type Parameter, type Unit } from '../unit/sweep/dipole.ts';
 
-// File rules: Touchstone File Format Specification 2.0 (IBIS Open Forum), as summarised in
-// TOUCHSTONE.md. Expected impedances: the invented series RLC dipole of tests/unit/sweep/dipole.ts,
+// File rules: Touchstone File Format Specification, Version 2.0 (IBIS Open Forum, 2009), § Option
+// Line and § Network Data (headings from memory). Expected impedances: the invented series RLC dipole of tests/unit/sweep/dipole.ts,
 // computed independently with complex.js. SWR and return loss from |Γ| are common practice.
 
 let ctx: TestApp;
@@ -128,6 +128,30 @@ describe('CSV and JSON uploads', () => {
     expect(fail.body.verdict.pass).toBe(false);
     expect(fail.body.verdict.worst.frequencyHz).toBe(6.9e6);
     expect(fail.body.summary.resonancesHz[0]).toBeCloseTo(7.125e6, -3);
+  });
+
+  it('judges a stored sweep again by a new mask or threshold, from the same points', async () => {
+    // SWR of a resistive load on 50 Ω is ZL/Z0 or Z0/ZL (textbook): 100 Ω → 2, 50 Ω → 1, 75 Ω → 1.5.
+    const points = [
+      { frequencyHz: 7.0e6, loadOhm: 100 },
+      { frequencyHz: 7.1e6, loadOhm: 50 },
+      { frequencyHz: 7.2e6, loadOhm: 75 },
+    ];
+    const stored = await api().post('/api/v1/sweeps').set(ctx.auth).send({ name: 'rejudged', points, mask: { maxSwr: 1.6 } }).expect(201);
+    expect(stored.body.verdict).toMatchObject({ pass: false, worst: { frequencyHz: 7.0e6 } });
+    const path = `/api/v1/sweeps/${stored.body.id}`;
+    const narrowed = await api().patch(path).set(ctx.auth).send({ mask: { maxSwr: 1.6, startHz: 7.05e6, stopHz: 7.2e6 } }).expect(200);
+    expect(narrowed.body.verdict).toMatchObject({ pass: true, mask: { maxSwr: 1.6, startHz: 7.05e6, stopHz: 7.2e6 } });
+    expect(narrowed.body.points.map((p: { swr: number }) => p.swr)).toEqual(stored.body.points.map((p: { swr: number }) => p.swr));
+    const reread = await api().get(path).set(ctx.auth).expect(200);
+    expect(reread.body.verdict).toEqual(narrowed.body.verdict);
+    const threshold = await api().patch(path).set(ctx.auth).send({ thresholdSwr: 3, mask: null }).expect(200);
+    expect(threshold.body.verdict).toBeNull();
+    expect(threshold.body.thresholdSwr).toBe(3);
+    expect(threshold.body.summary.bands).toEqual([expect.objectContaining({ startHz: 7.0e6, stopHz: 7.2e6 })]);
+    await api().patch(path).set(ctx.auth).send({}).expect(400);
+    await api().patch(path).set(ctx.auth).send({ mask: { maxSwr: 0.5 } }).expect(422);
+    await api().patch(`/api/v1/sweeps/${randomUUID()}`).set(ctx.auth).send({ thresholdSwr: 2 }).expect(404);
   });
 });
 

@@ -46,6 +46,24 @@ describe('every catalog entry is complete and honest', () => {
     });
   }
 
+  it('names the published specification or handbook table behind each entry, marked from memory', () => {
+    for (const cable of CABLE_CATALOG) expect(cable.source, cable.id).toMatch(/(MIL-DTL-17|ARRL Handbook|ARRL Antenna Book).*from memory/);
+  });
+
+  it('says where each voltage rating comes from, or why there is none', () => {
+    // The ratings drive the cautions of /line and /refer, so their provenance is stated like the loss figures'.
+    for (const cable of CABLE_CATALOG) {
+      if (cable.maxVoltageRmsV === null) expect(cable.maxVoltageSource, cable.id).toMatch(/^No (published )?rating/);
+      else expect(cable.maxVoltageSource, cable.id).toMatch(/(MIL-DTL-17|makers').*from memory/);
+    }
+    // The MIL types' maximum operating voltages, from memory: RG-58 1,900 V, RG-213 5,000 V, RG-174 1,500 V.
+    expect(findCable('rg-58')!.maxVoltageRmsV).toBe(1900);
+    expect(findCable('rg-213')!.maxVoltageRmsV).toBe(5000);
+    expect(findCable('rg-174')!.maxVoltageRmsV).toBe(1500);
+    // The bare-conductor lines are marked, so an unrated one is cautioned about its conductors.
+    expect(CABLE_CATALOG.filter((c) => c.balanced).map((c) => c.id).sort()).toEqual(['open-wire-600', 'twin-lead-300', 'window-line-450']);
+  });
+
   it('names no brand or trademark anywhere', () => {
     const text = JSON.stringify(CABLE_CATALOG).toLowerCase();
     for (const brand of BRAND_DENYLIST) expect(text, brand).not.toMatch(new RegExp(`\\b${brand}\\b`));

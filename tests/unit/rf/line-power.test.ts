@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { findCable } from '../../../shared/rf/cables.ts';
 import { SPEED_OF_LIGHT_M_PER_S } from '../../../shared/rf/constants.ts';
-import { attenuatorSection, cascadeLines, lineFromCable, lineFromLossSpec, lineFromRlgc, transformLine, type LineModel } from '../../../shared/rf/line.ts';
+import { attenuatorSection, cascadeLines, lineFromCable, lineFromLossSpec, lineFromRlgc, readingPeaks, transformLine, UNRATED_LINE_CAUTION_V, voltageCautions, type LineModel } from '../../../shared/rf/line.ts';
 import { reflectionCoefficient } from '../../../shared/rf/reflection.ts';
 import { handbookTotalLossDb } from '../../../shared/rf/refer.ts';
 import { refWaveAlongLine } from '../../helpers/rf-reference.ts';
@@ -170,5 +170,51 @@ describe('a line of several sections', () => {
     if (r.peaks!.maxVoltageV === third.maxVoltageV) expect(r.peaks!.maxVoltageAtM).toBeCloseTo(25 + third.maxVoltageAtM, 12);
     expect(r.peaks!.maxVoltageAtM).toBeLessThanOrEqual(65);
     expect(r.peaks!.maxVoltageV).toBe(Math.max(...r.sections.map((s) => s.peaks!.maxVoltageV)));
+  });
+});
+
+describe('a line with no voltage rating is cautioned above 500 V RMS', () => {
+  it('names the bare conductors of the catalog\'s balanced lines, and asks for a rating on other lines', () => {
+    // 1,500 W into 30 m of 450 Ω window line ending in 3,150 Ω: SWR 7, Vmax ≈ √(1500 · 450 · 7) ≈ 2,174 V (common practice).
+    const f = 7.1e6;
+    const window = transformLine(lineFromCable(findCable('window-line-450')!, 30, f), { re: 3150, im: 0 }, f, 1500);
+    expect(window.cautions).toHaveLength(1);
+    expect(window.cautions[0]).toMatch(/conductors are bare/);
+    const hardline = transformLine(lineFromCable(findCable('hardline-half-inch')!, 30, f), { re: 350, im: 0 }, f, 1500);
+    expect(hardline.cautions[0]).toMatch(/no voltage rating is known/);
+  });
+
+  it('stays quiet at or under the threshold, and for an unrated connector beside a cable', () => {
+    expect(UNRATED_LINE_CAUTION_V).toBe(500);
+    const line = lineFromCable(findCable('open-wire-600')!, 20, 3.7e6);
+    expect(voltageCautions(UNRATED_LINE_CAUTION_V, line)).toEqual([]);
+    expect(voltageCautions(UNRATED_LINE_CAUTION_V + 1, line)).toHaveLength(1);
+    expect(voltageCautions(5000, attenuatorSection(0.1, { re: 50, im: 0 }))).toEqual([]);
+  });
+});
+
+describe('voltage and current maxima of a reading in watts', () => {
+  it('equal √(P·Z0·SWR) and √(P·SWR/Z0) on a lossless line (hand computation, common practice)', () => {
+    // 2,000 W forward, 500 W reflected: |Γ| 0.5, SWR 3, 1,500 W net on 450 Ω.
+    const line = lineFromLossSpec({ impedanceOhm: { re: 450, im: 0 }, velocityFactor: 0.91, lossDbPer100m: 0, lengthM: 30 }, 7.1e6);
+    const { peaks } = readingPeaks([line], 2000, 500);
+    expect(peaks.maxVoltageV).toBeCloseTo(Math.sqrt(1500 * 450 * 3), 9);
+    expect(peaks.maxCurrentA).toBeCloseTo(Math.sqrt((1500 * 3) / 450), 12);
+  });
+
+  it('are largest at the input of a uniform lossy line, and in the higher-impedance section of two', () => {
+    // One section: √(a·Pf) + √(Pr/a) ≤ √Pf + √Pr whenever the load reflects no more than reaches it (Pr ≤ a²·Pf; AM-GM).
+    const lossy = lineFromLossSpec({ impedanceOhm: { re: 50, im: 0 }, velocityFactor: 0.66, lossDbPer100m: 10, lengthM: 30 }, 7.1e6);
+    const one = readingPeaks([lossy], 1000, 200).peaks;
+    expect(one.maxVoltageAtM).toBe(0);
+    expect(one.maxVoltageV).toBeCloseTo(Math.sqrt(50) * (Math.sqrt(1000) + Math.sqrt(200)), 9);
+    // 10 m of 50 Ω then 20 m of 450 Ω, both lossless: the voltage crest is on the 450 Ω line, the current crest on the 50 Ω one.
+    const coax = lineFromLossSpec({ impedanceOhm: { re: 50, im: 0 }, velocityFactor: 0.66, lossDbPer100m: 0, lengthM: 10 }, 7.1e6);
+    const ladder = lineFromLossSpec({ impedanceOhm: { re: 450, im: 0 }, velocityFactor: 0.91, lossDbPer100m: 0, lengthM: 20 }, 7.1e6);
+    const two = readingPeaks([coax, ladder], 1000, 250).peaks;
+    expect(two.maxVoltageV).toBeCloseTo(Math.sqrt(450) * (Math.sqrt(1000) + Math.sqrt(250)), 9);
+    expect(two.maxVoltageAtM).toBe(10);
+    expect(two.maxCurrentA).toBeCloseTo((Math.sqrt(1000) + Math.sqrt(250)) / Math.sqrt(50), 12);
+    expect(two.maxCurrentAtM).toBe(0);
   });
 });

@@ -31,7 +31,7 @@ function pair(x: ComplexJs, format: Format): string {
 
 /**
  * The dipole sweep written as a one-port Touchstone file in the given form. Version 1 Z and Y data
- * are normalized to R; Version 2 Z and Y data are in ohms and siemens (TOUCHSTONE.md rules 6 and 7).
+ * are normalized to R; Version 2 Z and Y data are in ohms and siemens (Touchstone File Format Specification 2.0, § Option Line; the Version 2 reading from memory).
  */
 export function dipoleTouchstone(form: { unit: Unit; parameter: Parameter; format: Format; referenceOhm: number; version: 1 | 2; optionLine?: string }): string {
   const { unit, parameter, format, referenceOhm: r, version } = form;

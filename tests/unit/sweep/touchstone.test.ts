@@ -4,8 +4,8 @@ import { describe, expect, it } from 'vitest';
 import { MAX_SWEEP_POINTS, parseOptionLine, parseTouchstone, SweepFormatError, type Sweep } from '../../../shared/sweep/index.ts';
 import { dipoleImpedance, dipoleTouchstone, DIPOLE_FREQUENCIES_HZ, type Format, type Parameter, type Unit } from './dipole.ts';
 
-// Format rules: Touchstone File Format Specification 2.0 (IBIS Open Forum), as summarised in
-// TOUCHSTONE.md. Expected values: independent re-computation with complex.js.
+// Format rules: Touchstone File Format Specification, Version 2.0 (IBIS Open Forum, 2009), cited
+// by section: "Option Line", "Network Data", "[Version]", "[Reference]" (headings from memory). Expected values: independent re-computation with complex.js.
 
 const fixture = (name: string): string => readFileSync(new URL(`../../fixtures/sweeps/${name}`, import.meta.url), 'utf8');
 
@@ -81,7 +81,7 @@ describe('Version 1 and Version 2 treat Z and Y data differently', () => {
     expect(sweep.points[0]?.loadOhm).toEqual({ re: 50, im: 0 });
   });
 
-  it('reads Version 2 Z data in ohms, so Z = 1 is a 1-ohm load (rule from memory in TOUCHSTONE.md, pinned here)', () => {
+  it('reads Version 2 Z data in ohms, so Z = 1 is a 1-ohm load (Touchstone 2.0 § [Network Data], from memory; pinned here)', () => {
     const sweep = parseTouchstone('[Version] 2.0\n# MHz Z RI R 50\n[Number of Ports] 1\n[Network Data]\n7.1 1 0\n[End]\n');
     expect(sweep.points[0]?.loadOhm).toEqual({ re: 1, im: 0 });
   });

@@ -138,6 +138,26 @@ export interface paths {
         patch?: never;
         trace?: never;
     };
+    "/api/v1/fault-distance": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /**
+         * Distance to fault from a wideband sweep
+         * @description Frequency-domain reflectometry in band-pass mode: the reflection over the swept band, windowed (`hann` by default) and zero-padded, inverse-Fourier-transformed into reflection against distance (time × c × VF / 2), with the line loss out and back removed when `compensateLoss`. Answers the resolution c·VF/(2·span), the unambiguous range c·VF/(2·step), the response from 0 to the range and its peaks, strongest first. Frequencies must be evenly spaced (each within 1 % of a step); too few points, uneven spacing, or a range the span cannot resolve are a 422 saying why. For a stored sweep use POST /api/v1/sweeps/{id}/fault-distance.
+         */
+        post: operations["computeFaultDistance"];
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
     "/api/v1/batch": {
         parameters: {
             query?: never;
@@ -351,7 +371,11 @@ export interface paths {
         delete: operations["deleteSweep"];
         options?: never;
         head?: never;
-        patch?: never;
+        /**
+         * Judge a stored sweep by another threshold or acceptance figure
+         * @description Sets `thresholdSwr` and/or `mask` (`null` removes the mask); the bands, the summary and the verdict are worked out again from the stored points, which never change.
+         */
+        patch: operations["updateSweep"];
         trace?: never;
     };
     "/api/v1/sweeps/{id}/points.csv": {
@@ -368,6 +392,26 @@ export interface paths {
         get: operations["exportSweepPoints"];
         put?: never;
         post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/api/v1/sweeps/{id}/fault-distance": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        get?: never;
+        put?: never;
+        /**
+         * Distance to fault from a stored sweep
+         * @description As POST /api/v1/fault-distance, on the measured points of a stored sweep (before any move through a line; from any source the upload accepts: Touchstone, CSV or JSON), against its `referenceOhm`. The sweep must be evenly spaced in frequency; one that is not is a 422 saying how far off it is. One calculation unit.
+         */
+        post: operations["computeSweepFaultDistance"];
         delete?: never;
         options?: never;
         head?: never;
@@ -1187,6 +1231,15 @@ export interface components {
             lineDissipationW?: number;
             /** @description When the line was given as sections: the matched loss of each at the frequency, from the transmitter end; they add up to `matchedLossDb`. */
             sectionsMatchedLossDb?: number[];
+            /** @description When the reading has powers and the line is described (not only `matchedLossDb`): the highest RMS voltage and current the line can carry, from the standing wave's envelope (forward and reflected waves in phase), and where from the input; a reading has no phase, so the crest may lie up to a quarter wavelength from that place. */
+            peaks?: {
+                maxVoltageV: number;
+                maxCurrentA: number;
+                maxVoltageAtM: number;
+                maxCurrentAtM: number;
+            };
+            /** @description Safety cautions, as on POST /api/v1/line: a voltage above the line's rating, or high on a line with none. Show them to the user. */
+            cautions: string[];
         };
         /**
          * @example {
@@ -1242,6 +1295,8 @@ export interface components {
         };
         MatchResult: {
             solutions: components["schemas"]["MatchSolution"][];
+            /** @description Safety cautions (with `powerW`: component ratings need margin above the figures). Show them to the user. */
+            cautions: string[];
         };
         MatchSolution: {
             /**
@@ -1251,6 +1306,11 @@ export interface components {
             topology: "shuntAtLoad" | "seriesAtLoad";
             /** @description Ordered from the source to the load. */
             elements: components["schemas"]["MatchElement"][];
+            /**
+             * @description Which element faces the source (the first of `elements`).
+             * @enum {string}
+             */
+            sourceSide: "series" | "shunt";
             /**
              * @description Input impedance of network + load (the source's conjugate).
              * @example {
@@ -1273,6 +1333,14 @@ export interface components {
             reactanceOhm: number;
             valueH?: number;
             valueF?: number;
+            /** @description With `powerW`: RMS voltage across the element, V. */
+            voltageRmsV?: number;
+            /** @description With `powerW`: peak voltage across it (√2 × RMS), V. */
+            voltagePeakV?: number;
+            /** @description With `powerW`: RMS current through it, A. */
+            currentRmsA?: number;
+            /** @description With `powerW`: reactive power X·I² it circulates, var (positive for an inductor, negative for a capacitor). */
+            reactivePowerVar?: number;
         };
         /**
          * @example {
@@ -1281,7 +1349,8 @@ export interface components {
          *         "re": 12,
          *         "im": -30
          *       },
-         *       "sourceOhm": 50
+         *       "sourceOhm": 50,
+         *       "powerW": 100
          *     }
          */
         MatchRequest: {
@@ -1307,6 +1376,243 @@ export interface components {
              *     }
              */
             sourceOhm?: number | components["schemas"]["Complex"];
+            /**
+             * @description Power delivered into the network from the source (RMS W). Adds to each element the voltage across it and the current through it, and a caution.
+             * @example 100
+             */
+            powerW?: number;
+        };
+        FaultDistanceResult: {
+            /** @description c·VF/(2·span): reflections closer together than this merge into one peak. */
+            resolutionM: number;
+            /** @description c·VF/(2·step), the unambiguous range: a reflection farther away folds back to its distance minus this. */
+            maxDistanceM: number;
+            /** @description How far `points` reach: the asked `maxDistanceM`, else the unambiguous range. */
+            rangeM: number;
+            /** @description Distance between neighbouring `points` (a fraction of the resolution; at most 4,096 points are sent). */
+            pointSpacingM: number;
+            /** @enum {string} */
+            window: "rectangular" | "hann" | "blackman";
+            velocityFactor: number;
+            /** @description The one-way loss removed out and back, dB/100 m; `null` when none was. */
+            compensatedLossDbPer100m: number | null;
+            /** @description Peaks whose return loss is above this are not listed: the strongest peak's return loss plus the window's sidelobe level less 3 dB (rectangular 10.3, hann 28.5, blackman 55.1 dB), so no sidelobe is taken for a fault; `null` when nothing reflects. */
+            peakFloorReturnLossDb: number | null;
+            /** @description The response from 0 to `rangeM`, evenly spaced. */
+            points: components["schemas"]["FaultPoint"][];
+            /** @description Local maxima above the floor, strongest first (at most 20), each placed on the continuous response. */
+            peaks: components["schemas"]["FaultPoint"][];
+        };
+        FaultPoint: {
+            /** @description Distance from the measured end, m. */
+            distanceM: number;
+            /** @description |Γ| of what reflects there (with the line loss out and back removed when compensated; may then exceed 1 on noise far down a lossy line). */
+            reflectionMagnitude: number;
+            /** @description −20·log10 |Γ|; `null` where nothing reflects (|Γ| = 0), where it is unbounded. */
+            returnLossDb: number | null;
+        };
+        /**
+         * @description A wideband sweep of a feed line with the line's velocity factor (and loss).
+         * @example {
+         *       "points": [
+         *         {
+         *           "frequencyHz": 2000000,
+         *           "reflection": {
+         *             "re": -0.11119,
+         *             "im": -0.28135
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 6000000,
+         *           "reflection": {
+         *             "re": 0.00444,
+         *             "im": -0.21425
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 10000000,
+         *           "reflection": {
+         *             "re": 0.26603,
+         *             "im": 0.24679
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 14000000,
+         *           "reflection": {
+         *             "re": 0.00065,
+         *             "im": 0.12647
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 18000000,
+         *           "reflection": {
+         *             "re": -0.37014,
+         *             "im": -0.10391
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 22000000,
+         *           "reflection": {
+         *             "re": 0.06335,
+         *             "im": -0.10761
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 26000000,
+         *           "reflection": {
+         *             "re": 0.3566,
+         *             "im": -0.07259
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 30000000,
+         *           "reflection": {
+         *             "re": -0.1055,
+         *             "im": 0.18377
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 34000000,
+         *           "reflection": {
+         *             "re": -0.24263,
+         *             "im": 0.18389
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 38000000,
+         *           "reflection": {
+         *             "re": 0.05071,
+         *             "im": -0.29628
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 42000000,
+         *           "reflection": {
+         *             "re": 0.11561,
+         *             "im": -0.18327
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 46000000,
+         *           "reflection": {
+         *             "re": 0.09853,
+         *             "im": 0.34813
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 50000000,
+         *           "reflection": {
+         *             "re": -0.06393,
+         *             "im": 0.11105
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 54000000,
+         *           "reflection": {
+         *             "re": -0.26196,
+         *             "im": -0.28136
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 58000000,
+         *           "reflection": {
+         *             "re": 0.10749,
+         *             "im": -0.06047
+         *           }
+         *         },
+         *         {
+         *           "frequencyHz": 62000000,
+         *           "reflection": {
+         *             "re": 0.34327,
+         *             "im": 0.12387
+         *           }
+         *         }
+         *       ],
+         *       "line": {
+         *         "velocityFactor": 0.66,
+         *         "lossDbPer100m": 4.5
+         *       },
+         *       "window": "hann",
+         *       "maxDistanceM": 24
+         *     }
+         */
+        FaultDistanceRequest: {
+            /** @description The sweep as POST /api/v1/sweeps takes JSON points: evenly spaced frequencies, at least 16 (at most 20000). */
+            points: components["schemas"]["SweepPointInput"][];
+            /**
+             * @description Real reference resistance the points' `reflection` is taken against, and `loadOhm` is read against. Default 50.
+             * @default 50
+             * @example 50
+             */
+            referenceOhm?: number;
+            line: components["schemas"]["FaultLine"];
+            /**
+             * @description Window applied across the band before the transform: `rectangular` (sharpest peaks, sidelobes 13 dB down: faults more than 10 dB weaker than the strongest are not listed), `hann` (default; 31 dB, listing down to 28.5 dB) or `blackman` (widest peaks; 58 dB, down to 55 dB).
+             * @default hann
+             * @enum {string}
+             */
+            window?: "rectangular" | "hann" | "blackman";
+            /**
+             * @description Farthest distance wanted, m; default the unambiguous range c·VF/(2·step). Farther than that, or shorter than the resolution, is a 422.
+             * @example 40
+             */
+            maxDistanceM?: number;
+            /** @description Raise each distance's figure by the line's loss out and back (at the centre of the sweep). Default: true when the line has a loss. */
+            compensateLoss?: boolean;
+        };
+        /**
+         * @example {
+         *       "frequencyHz": 7100000,
+         *       "loadOhm": {
+         *         "re": 52.3,
+         *         "im": -4.1
+         *       }
+         *     }
+         */
+        SweepPointInput: {
+            /** @example 7100000 */
+            frequencyHz: number;
+            /**
+             * @description Measured impedance; `null` for an open circuit.
+             * @example {
+             *       "re": 72,
+             *       "im": 18
+             *     }
+             */
+            loadOhm?: number | components["schemas"]["Complex"] | null;
+            /**
+             * @description Measured Γ against `referenceOhm`, instead of `loadOhm`.
+             * @example {
+             *       "re": 36.5,
+             *       "im": -12.2
+             *     }
+             */
+            reflection?: {
+                /** @description Real part. */
+                re: number;
+                /** @description Imaginary part. */
+                im: number;
+            };
+        };
+        /**
+         * @description The line under test: `{ cableId }` (its velocity factor and loss), or `{ velocityFactor }` with an optional `lossDbPer100m` or `lossDbPer100ft`.
+         * @example {
+         *       "velocityFactor": 0.66,
+         *       "lossDbPer100m": 4.5
+         *     }
+         */
+        FaultLine: {
+            /**
+             * @description A cable from `GET /api/v1/cables` or your account: its velocity factor, and its loss at the centre of the sweep.
+             * @example rg-213
+             */
+            cableId?: string;
+            /** @description Velocity factor, 0 < VF ≤ 1, instead of `cableId`. */
+            velocityFactor?: number;
+            /** @description Matched loss at the centre of the sweep, dB per 100 m (with `velocityFactor`). */
+            lossDbPer100m?: number;
+            /** @description Matched loss at the centre of the sweep, dB per 100 ft (with `velocityFactor`). */
+            lossDbPer100ft?: number;
         };
         /**
          * @example {
@@ -1435,7 +1741,7 @@ export interface components {
             items: components["schemas"]["BatchItem"][];
         };
         /**
-         * @description One calculation: `op` is the calculation's name as in its path (`mismatch` = POST /api/v1/mismatch, `reflection`, `line`, `refer`, `match`) and `input` is the body that endpoint takes.
+         * @description One calculation: `op` is the calculation's name as in its path (`mismatch` = POST /api/v1/mismatch, `reflection`, `line`, `refer`, `match`, `fault-distance`) and `input` is the body that endpoint takes.
          * @example {
          *       "op": "mismatch",
          *       "input": {
@@ -1463,6 +1769,10 @@ export interface components {
             /** @enum {string} */
             op: "match";
             input: components["schemas"]["MatchRequest"];
+        } | {
+            /** @enum {string} */
+            op: "fault-distance";
+            input: components["schemas"]["FaultDistanceRequest"];
         };
         CableList: {
             /** @description The catalog first, then your organisation's cables by id. */
@@ -1826,6 +2136,15 @@ export interface components {
             lineDissipationW?: number;
             /** @description Matched loss of each section at the frequency, from the transmitter end; they add up to `matchedLossDb`. */
             sectionsMatchedLossDb: number[];
+            /** @description When the reading has powers and the line is described (not only `matchedLossDb`): the highest RMS voltage and current the line can carry, from the standing wave's envelope (forward and reflected waves in phase), and where from the input; a reading has no phase, so the crest may lie up to a quarter wavelength from that place. */
+            peaks?: {
+                maxVoltageV: number;
+                maxCurrentA: number;
+                maxVoltageAtM: number;
+                maxCurrentAtM: number;
+            };
+            /** @description Safety cautions, as on POST /api/v1/line: a voltage above the line's rating, or high on a line with none. Show them to the user. */
+            cautions: string[];
         };
         /**
          * @example {
@@ -2102,40 +2421,6 @@ export interface components {
          *     }
          */
         SweepLine: components["schemas"]["LineSpec"] | components["schemas"]["FeedlineSection"][];
-        /**
-         * @example {
-         *       "frequencyHz": 7100000,
-         *       "loadOhm": {
-         *         "re": 52.3,
-         *         "im": -4.1
-         *       }
-         *     }
-         */
-        SweepPointInput: {
-            /** @example 7100000 */
-            frequencyHz: number;
-            /**
-             * @description Measured impedance; `null` for an open circuit.
-             * @example {
-             *       "re": 72,
-             *       "im": 18
-             *     }
-             */
-            loadOhm?: number | components["schemas"]["Complex"] | null;
-            /**
-             * @description Measured Γ against `referenceOhm`, instead of `loadOhm`.
-             * @example {
-             *       "re": 36.5,
-             *       "im": -12.2
-             *     }
-             */
-            reflection?: {
-                /** @description Real part. */
-                re: number;
-                /** @description Imaginary part. */
-                im: number;
-            };
-        };
         SweepList: {
             /** @description Newest first. */
             sweeps: components["schemas"]["SweepListItem"][];
@@ -2166,6 +2451,75 @@ export interface components {
             summary: components["schemas"]["SweepSummary"];
             verdict: components["schemas"]["SweepVerdict"];
             createdAt: string;
+        };
+        /**
+         * @description The bands and the verdict are worked out again from the stored points.
+         * @example {
+         *       "mask": {
+         *         "maxSwr": 1.5,
+         *         "startHz": 7050000,
+         *         "stopHz": 7150000
+         *       }
+         *     }
+         */
+        UpdateSweep: {
+            /**
+             * @description Bands are where SWR stays under this. Default 2 (common practice).
+             * @example 2
+             */
+            thresholdSwr?: number;
+            /**
+             * @description A new acceptance figure over a frequency range; `null` removes it.
+             * @example {
+             *       "maxSwr": 1.5,
+             *       "startHz": 7000000,
+             *       "stopHz": 7200000
+             *     }
+             */
+            mask?: {
+                /**
+                 * @description Pass when SWR stays at or under this everywhere in the range.
+                 * @example 1.5
+                 */
+                maxSwr?: number;
+                /** @description Pass when return loss stays at or above this everywhere in the range. */
+                minReturnLossDb?: number;
+                /**
+                 * @description Start of the range (default: the first point).
+                 * @example 7000000
+                 */
+                startHz?: number;
+                /**
+                 * @description End of the range (default: the last point).
+                 * @example 7200000
+                 */
+                stopHz?: number;
+            } | null;
+        };
+        /**
+         * @description The line under test and the options; the stored sweep's measured points are used (before any move through a line).
+         * @example {
+         *       "line": {
+         *         "cableId": "rg-213"
+         *       },
+         *       "window": "hann"
+         *     }
+         */
+        SweepFaultDistanceRequest: {
+            line: components["schemas"]["FaultLine"];
+            /**
+             * @description Window applied across the band before the transform: `rectangular` (sharpest peaks, sidelobes 13 dB down: faults more than 10 dB weaker than the strongest are not listed), `hann` (default; 31 dB, listing down to 28.5 dB) or `blackman` (widest peaks; 58 dB, down to 55 dB).
+             * @default hann
+             * @enum {string}
+             */
+            window?: "rectangular" | "hann" | "blackman";
+            /**
+             * @description Farthest distance wanted, m; default the unambiguous range c·VF/(2·step). Farther than that, or shorter than the resolution, is a 422.
+             * @example 40
+             */
+            maxDistanceM?: number;
+            /** @description Raise each distance's figure by the line's loss out and back (at the centre of the sweep). Default: true when the line has a loss. */
+            compensateLoss?: boolean;
         };
         Session: {
             member: components["schemas"]["Member"];
@@ -3110,7 +3464,14 @@ export interface operations {
                      *       },
                      *       "matchedLossDb": 1.515019880505534,
                      *       "totalLossDb": 2.0935578177282532,
-                     *       "lineDissipationW": 34.04158174935091
+                     *       "lineDissipationW": 34.04158174935091,
+                     *       "peaks": {
+                     *         "maxVoltageV": 94.16275691777189,
+                     *         "maxCurrentA": 1.883255138355438,
+                     *         "maxVoltageAtM": 0,
+                     *         "maxCurrentAtM": 0
+                     *       },
+                     *       "cautions": []
                      *     }
                      */
                     "application/json": components["schemas"]["ReferResult"];
@@ -3225,15 +3586,24 @@ export interface operations {
                      *               "position": "series",
                      *               "kind": "inductor",
                      *               "reactanceOhm": 43.01162633521313,
-                     *               "valueH": 0.0000018754829977180035
+                     *               "valueH": 0.0000018754829977180035,
+                     *               "voltageRmsV": 60.827625302982185,
+                     *               "voltagePeakV": 86.02325267042626,
+                     *               "currentRmsA": 1.414213562373095,
+                     *               "reactivePowerVar": 86.02325267042625
                      *             },
                      *             {
                      *               "position": "shunt",
                      *               "kind": "inductor",
                      *               "reactanceOhm": 53.056303053225186,
-                     *               "valueH": 0.000002313472025507509
+                     *               "valueH": 0.000002313472025507509,
+                     *               "voltageRmsV": 93.27379053088815,
+                     *               "voltagePeakV": 131.9090595827292,
+                     *               "currentRmsA": 1.7580152623396592,
+                     *               "reactivePowerVar": 163.97674732957378
                      *             }
                      *           ],
+                     *           "sourceSide": "series",
                      *           "inputOhm": {
                      *             "re": 50.00000000000001,
                      *             "im": 0
@@ -3246,15 +3616,24 @@ export interface operations {
                      *               "position": "series",
                      *               "kind": "capacitor",
                      *               "reactanceOhm": -43.01162633521313,
-                     *               "valueF": 1.013774593361083e-9
+                     *               "valueF": 1.013774593361083e-9,
+                     *               "voltageRmsV": 60.827625302982185,
+                     *               "voltagePeakV": 86.02325267042626,
+                     *               "currentRmsA": 1.414213562373095,
+                     *               "reactivePowerVar": -86.02325267042625
                      *             },
                      *             {
                      *               "position": "shunt",
                      *               "kind": "inductor",
                      *               "reactanceOhm": 25.89106536782743,
-                     *               "valueH": 0.000001128956448001402
+                     *               "valueH": 0.000001128956448001402,
+                     *               "voltageRmsV": 93.27379053088815,
+                     *               "voltagePeakV": 131.9090595827292,
+                     *               "currentRmsA": 3.6025474118493146,
+                     *               "reactivePowerVar": 336.0232526704263
                      *             }
                      *           ],
+                     *           "sourceSide": "series",
                      *           "inputOhm": {
                      *             "re": 50.00000000000001,
                      *             "im": 0
@@ -3267,15 +3646,24 @@ export interface operations {
                      *               "position": "shunt",
                      *               "kind": "capacitor",
                      *               "reactanceOhm": -28.097574347450816,
-                     *               "valueF": 1.5518810790774036e-9
+                     *               "valueF": 1.5518810790774036e-9,
+                     *               "voltageRmsV": 70.71067811865476,
+                     *               "voltagePeakV": 100.00000000000001,
+                     *               "currentRmsA": 2.5166114784235836,
+                     *               "reactivePowerVar": -177.95130420052186
                      *             },
                      *             {
                      *               "position": "series",
                      *               "kind": "inductor",
                      *               "reactanceOhm": 51.35415650406262,
-                     *               "valueH": 0.0000022392514673798283
+                     *               "valueH": 0.0000022392514673798283,
+                     *               "voltageRmsV": 148.24668040813364,
+                     *               "voltagePeakV": 209.65246600997241,
+                     *               "currentRmsA": 2.886751345948129,
+                     *               "reactivePowerVar": 427.9513042005219
                      *             }
                      *           ],
+                     *           "sourceSide": "shunt",
                      *           "inputOhm": {
                      *             "re": 50,
                      *             "im": -1.734723475976807e-14
@@ -3288,24 +3676,789 @@ export interface operations {
                      *               "position": "shunt",
                      *               "kind": "inductor",
                      *               "reactanceOhm": 28.097574347450816,
-                     *               "valueH": 0.0000012251692729558448
+                     *               "valueH": 0.0000012251692729558448,
+                     *               "voltageRmsV": 70.71067811865476,
+                     *               "voltagePeakV": 100.00000000000001,
+                     *               "currentRmsA": 2.5166114784235836,
+                     *               "reactivePowerVar": 177.95130420052186
                      *             },
                      *             {
                      *               "position": "series",
                      *               "kind": "inductor",
                      *               "reactanceOhm": 8.645843495937378,
-                     *               "valueH": 3.7699417248694435e-7
+                     *               "valueH": 3.7699417248694435e-7,
+                     *               "voltageRmsV": 24.958400348754104,
+                     *               "voltagePeakV": 35.29650826834544,
+                     *               "currentRmsA": 2.886751345948129,
+                     *               "reactivePowerVar": 72.04869579947817
                      *             }
                      *           ],
+                     *           "sourceSide": "shunt",
                      *           "inputOhm": {
                      *             "re": 50,
                      *             "im": 1.734723475976807e-14
                      *           }
                      *         }
+                     *       ],
+                     *       "cautions": [
+                     *         "Caution: these voltages and currents are what each component carries with this load at this power, in an ideal network. Choose parts rated with margin above them (common practice: twice the voltage or more for capacitors, and inductors that stay cool at the current), allow for a load that changes with weather or band, and use your own judgement as the builder. High RF voltages across a network can arc and cause RF burns; work on it only with the transmitter off and follow local codes and licensed practice."
                      *       ]
                      *     }
                      */
                     "application/json": components["schemas"]["MatchResult"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    computeFaultDistance: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["FaultDistanceRequest"];
+            };
+        };
+        responses: {
+            /** @description The result, in full double precision; unbounded values are `null`. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    /**
+                     * @example {
+                     *       "resolutionM": 1.648858519,
+                     *       "maxDistanceM": 24.732877785,
+                     *       "rangeM": 24,
+                     *       "pointSpacingM": 0.1932256076953125,
+                     *       "window": "hann",
+                     *       "velocityFactor": 0.66,
+                     *       "compensatedLossDbPer100m": 4.5,
+                     *       "peakFloorReturnLossDb": 38.969381945527374,
+                     *       "points": [
+                     *         {
+                     *           "distanceM": 0,
+                     *           "reflectionMagnitude": 0.0018360104260434266,
+                     *           "returnLossDb": 54.72249713850956
+                     *         },
+                     *         {
+                     *           "distanceM": 0.1932256076953125,
+                     *           "reflectionMagnitude": 0.0014427062187031005,
+                     *           "returnLossDb": 56.816441924016644
+                     *         },
+                     *         {
+                     *           "distanceM": 0.386451215390625,
+                     *           "reflectionMagnitude": 0.0009056089613567932,
+                     *           "returnLossDb": 60.86118577239722
+                     *         },
+                     *         {
+                     *           "distanceM": 0.5796768230859375,
+                     *           "reflectionMagnitude": 0.0003495755505892018,
+                     *           "returnLossDb": 69.12917899303578
+                     *         },
+                     *         {
+                     *           "distanceM": 0.77290243078125,
+                     *           "reflectionMagnitude": 0.00028799843296085047,
+                     *           "returnLossDb": 70.81219750580892
+                     *         },
+                     *         {
+                     *           "distanceM": 0.9661280384765625,
+                     *           "reflectionMagnitude": 0.0006509767082187118,
+                     *           "returnLossDb": 63.72869100200175
+                     *         },
+                     *         {
+                     *           "distanceM": 1.159353646171875,
+                     *           "reflectionMagnitude": 0.000859224360177529,
+                     *           "returnLossDb": 61.317868372631864
+                     *         },
+                     *         {
+                     *           "distanceM": 1.3525792538671875,
+                     *           "reflectionMagnitude": 0.0008695779110738767,
+                     *           "returnLossDb": 61.213830013682866
+                     *         },
+                     *         {
+                     *           "distanceM": 1.5458048615625,
+                     *           "reflectionMagnitude": 0.0006956963601327521,
+                     *           "returnLossDb": 63.151605377101596
+                     *         },
+                     *         {
+                     *           "distanceM": 1.7390304692578125,
+                     *           "reflectionMagnitude": 0.00040361885014985894,
+                     *           "returnLossDb": 67.880571183445
+                     *         },
+                     *         {
+                     *           "distanceM": 1.932256076953125,
+                     *           "reflectionMagnitude": 0.000290647101613014,
+                     *           "returnLossDb": 70.73268007102787
+                     *         },
+                     *         {
+                     *           "distanceM": 2.1254816846484372,
+                     *           "reflectionMagnitude": 0.0006148426808071792,
+                     *           "returnLossDb": 64.22471985026225
+                     *         },
+                     *         {
+                     *           "distanceM": 2.31870729234375,
+                     *           "reflectionMagnitude": 0.0009476046166893978,
+                     *           "returnLossDb": 60.4674566415974
+                     *         },
+                     *         {
+                     *           "distanceM": 2.5119329000390627,
+                     *           "reflectionMagnitude": 0.0011356617055118881,
+                     *           "returnLossDb": 58.89502036738881
+                     *         },
+                     *         {
+                     *           "distanceM": 2.705158507734375,
+                     *           "reflectionMagnitude": 0.0011049416805511106,
+                     *           "returnLossDb": 59.13321287366315
+                     *         },
+                     *         {
+                     *           "distanceM": 2.898384115429687,
+                     *           "reflectionMagnitude": 0.0008164081229040207,
+                     *           "returnLossDb": 61.76185365788359
+                     *         },
+                     *         {
+                     *           "distanceM": 3.091609723125,
+                     *           "reflectionMagnitude": 0.00028730710918599975,
+                     *           "returnLossDb": 70.83307255206836
+                     *         },
+                     *         {
+                     *           "distanceM": 3.2848353308203126,
+                     *           "reflectionMagnitude": 0.000563233977366192,
+                     *           "returnLossDb": 64.98622308095699
+                     *         },
+                     *         {
+                     *           "distanceM": 3.478060938515625,
+                     *           "reflectionMagnitude": 0.0014862590042056748,
+                     *           "returnLossDb": 56.558110025564375
+                     *         },
+                     *         {
+                     *           "distanceM": 3.671286546210937,
+                     *           "reflectionMagnitude": 0.0024446778221969513,
+                     *           "returnLossDb": 52.235567346443226
+                     *         },
+                     *         {
+                     *           "distanceM": 3.86451215390625,
+                     *           "reflectionMagnitude": 0.0032675770595764608,
+                     *           "returnLossDb": 49.715483232382425
+                     *         },
+                     *         {
+                     *           "distanceM": 4.057737761601563,
+                     *           "reflectionMagnitude": 0.0037587532814375973,
+                     *           "returnLossDb": 48.499123594937295
+                     *         },
+                     *         {
+                     *           "distanceM": 4.2509633692968745,
+                     *           "reflectionMagnitude": 0.003700895293068904,
+                     *           "returnLossDb": 48.63386403863093
+                     *         },
+                     *         {
+                     *           "distanceM": 4.444188976992187,
+                     *           "reflectionMagnitude": 0.0028678033908822597,
+                     *           "returnLossDb": 50.8490125216035
+                     *         },
+                     *         {
+                     *           "distanceM": 4.6374145846875,
+                     *           "reflectionMagnitude": 0.0010396831477402291,
+                     *           "returnLossDb": 59.66197990930028
+                     *         },
+                     *         {
+                     *           "distanceM": 4.830640192382813,
+                     *           "reflectionMagnitude": 0.0019883232905826328,
+                     *           "returnLossDb": 54.03026000540328
+                     *         },
+                     *         {
+                     *           "distanceM": 5.023865800078125,
+                     *           "reflectionMagnitude": 0.0063711990621981695,
+                     *           "returnLossDb": 43.91557651156383
+                     *         },
+                     *         {
+                     *           "distanceM": 5.217091407773437,
+                     *           "reflectionMagnitude": 0.012224508249578743,
+                     *           "returnLossDb": 38.25537204088006
+                     *         },
+                     *         {
+                     *           "distanceM": 5.41031701546875,
+                     *           "reflectionMagnitude": 0.01959502943882285,
+                     *           "returnLossDb": 34.157081594359354
+                     *         },
+                     *         {
+                     *           "distanceM": 5.603542623164063,
+                     *           "reflectionMagnitude": 0.028456036535900227,
+                     *           "returnLossDb": 30.91651180425992
+                     *         },
+                     *         {
+                     *           "distanceM": 5.796768230859374,
+                     *           "reflectionMagnitude": 0.038700914652768224,
+                     *           "returnLossDb": 28.24557541592356
+                     *         },
+                     *         {
+                     *           "distanceM": 5.989993838554687,
+                     *           "reflectionMagnitude": 0.050141456865622575,
+                     *           "returnLossDb": 25.996061034397307
+                     *         },
+                     *         {
+                     *           "distanceM": 6.18321944625,
+                     *           "reflectionMagnitude": 0.06251093264021104,
+                     *           "returnLossDb": 24.080880430686307
+                     *         },
+                     *         {
+                     *           "distanceM": 6.376445053945313,
+                     *           "reflectionMagnitude": 0.07547201705449806,
+                     *           "returnLossDb": 22.44428085920682
+                     *         },
+                     *         {
+                     *           "distanceM": 6.569670661640625,
+                     *           "reflectionMagnitude": 0.08862938615155135,
+                     *           "returnLossDb": 21.048445172306238
+                     *         },
+                     *         {
+                     *           "distanceM": 6.762896269335937,
+                     *           "reflectionMagnitude": 0.1015464786489752,
+                     *           "returnLossDb": 19.866702642590603
+                     *         },
+                     *         {
+                     *           "distanceM": 6.95612187703125,
+                     *           "reflectionMagnitude": 0.11376563041554086,
+                     *           "returnLossDb": 18.87977844517478
+                     *         },
+                     *         {
+                     *           "distanceM": 7.149347484726563,
+                     *           "reflectionMagnitude": 0.12483052793156632,
+                     *           "returnLossDb": 18.073583855424125
+                     *         },
+                     *         {
+                     *           "distanceM": 7.342573092421874,
+                     *           "reflectionMagnitude": 0.13430972077030134,
+                     *           "returnLossDb": 17.43785107587
+                     *         },
+                     *         {
+                     *           "distanceM": 7.535798700117187,
+                     *           "reflectionMagnitude": 0.1418197989436329,
+                     *           "returnLossDb": 16.965262693110986
+                     *         },
+                     *         {
+                     *           "distanceM": 7.7290243078125,
+                     *           "reflectionMagnitude": 0.14704679291819736,
+                     *           "returnLossDb": 16.650888859808543
+                     *         },
+                     *         {
+                     *           "distanceM": 7.9222499155078125,
+                     *           "reflectionMagnitude": 0.14976440122149723,
+                     *           "returnLossDb": 16.49182811061787
+                     *         },
+                     *         {
+                     *           "distanceM": 8.115475523203125,
+                     *           "reflectionMagnitude": 0.1498477955076098,
+                     *           "returnLossDb": 16.48699283627168
+                     *         },
+                     *         {
+                     *           "distanceM": 8.308701130898438,
+                     *           "reflectionMagnitude": 0.14728199138021966,
+                     *           "returnLossDb": 16.637007048528144
+                     *         },
+                     *         {
+                     *           "distanceM": 8.501926738593749,
+                     *           "reflectionMagnitude": 0.14216409354249931,
+                     *           "returnLossDb": 16.94420159469618
+                     *         },
+                     *         {
+                     *           "distanceM": 8.695152346289062,
+                     *           "reflectionMagnitude": 0.13469910738912907,
+                     *           "returnLossDb": 17.412705644153526
+                     *         },
+                     *         {
+                     *           "distanceM": 8.888377953984374,
+                     *           "reflectionMagnitude": 0.1251894314087581,
+                     *           "returnLossDb": 18.04864666126467
+                     *         },
+                     *         {
+                     *           "distanceM": 9.081603561679687,
+                     *           "reflectionMagnitude": 0.11401857666944061,
+                     *           "returnLossDb": 18.860487694714582
+                     *         },
+                     *         {
+                     *           "distanceM": 9.274829169375,
+                     *           "reflectionMagnitude": 0.10163006966662505,
+                     *           "returnLossDb": 19.85955553431432
+                     *         },
+                     *         {
+                     *           "distanceM": 9.468054777070313,
+                     *           "reflectionMagnitude": 0.0885028512376836,
+                     *           "returnLossDb": 21.060854753987897
+                     *         },
+                     *         {
+                     *           "distanceM": 9.661280384765625,
+                     *           "reflectionMagnitude": 0.07512475780823895,
+                     *           "returnLossDb": 22.484338301837976
+                     *         },
+                     *         {
+                     *           "distanceM": 9.854505992460938,
+                     *           "reflectionMagnitude": 0.06196583758924863,
+                     *           "returnLossDb": 24.15695351180836
+                     *         },
+                     *         {
+                     *           "distanceM": 10.04773160015625,
+                     *           "reflectionMagnitude": 0.04945329640774105,
+                     *           "returnLossDb": 26.11609508680519
+                     *         },
+                     *         {
+                     *           "distanceM": 10.240957207851562,
+                     *           "reflectionMagnitude": 0.03794977780569793,
+                     *           "returnLossDb": 28.41581525072801
+                     *         },
+                     *         {
+                     *           "distanceM": 10.434182815546874,
+                     *           "reflectionMagnitude": 0.027736463179039203,
+                     *           "returnLossDb": 31.138978377695675
+                     *         },
+                     *         {
+                     *           "distanceM": 10.627408423242187,
+                     *           "reflectionMagnitude": 0.019002147983004657,
+                     *           "returnLossDb": 34.42394608153336
+                     *         },
+                     *         {
+                     *           "distanceM": 10.8206340309375,
+                     *           "reflectionMagnitude": 0.01183905967394015,
+                     *           "returnLossDb": 38.53365580806677
+                     *         },
+                     *         {
+                     *           "distanceM": 11.013859638632812,
+                     *           "reflectionMagnitude": 0.00624596938615181,
+                     *           "returnLossDb": 44.088002974828285
+                     *         },
+                     *         {
+                     *           "distanceM": 11.207085246328125,
+                     *           "reflectionMagnitude": 0.0021424866098313316,
+                     *           "returnLossDb": 53.38163767322514
+                     *         },
+                     *         {
+                     *           "distanceM": 11.400310854023438,
+                     *           "reflectionMagnitude": 0.0007204126450514673,
+                     *           "returnLossDb": 62.84837345653151
+                     *         },
+                     *         {
+                     *           "distanceM": 11.593536461718749,
+                     *           "reflectionMagnitude": 0.002360302579956179,
+                     *           "returnLossDb": 52.54064637803906
+                     *         },
+                     *         {
+                     *           "distanceM": 11.786762069414062,
+                     *           "reflectionMagnitude": 0.0031585433414949666,
+                     *           "returnLossDb": 50.010263186898
+                     *         },
+                     *         {
+                     *           "distanceM": 11.979987677109374,
+                     *           "reflectionMagnitude": 0.0033306337485859605,
+                     *           "returnLossDb": 49.54946243301713
+                     *         },
+                     *         {
+                     *           "distanceM": 12.173213284804687,
+                     *           "reflectionMagnitude": 0.0031072577368445207,
+                     *           "returnLossDb": 50.15245443894323
+                     *         },
+                     *         {
+                     *           "distanceM": 12.3664388925,
+                     *           "reflectionMagnitude": 0.002690933576300621,
+                     *           "returnLossDb": 51.401940446821854
+                     *         },
+                     *         {
+                     *           "distanceM": 12.559664500195312,
+                     *           "reflectionMagnitude": 0.0022433231073523477,
+                     *           "returnLossDb": 52.98216340364836
+                     *         },
+                     *         {
+                     *           "distanceM": 12.752890107890625,
+                     *           "reflectionMagnitude": 0.0018761235721526538,
+                     *           "returnLossDb": 54.53477119828004
+                     *         },
+                     *         {
+                     *           "distanceM": 12.946115715585938,
+                     *           "reflectionMagnitude": 0.0016373324737723395,
+                     *           "returnLossDb": 55.717262491617355
+                     *         },
+                     *         {
+                     *           "distanceM": 13.13934132328125,
+                     *           "reflectionMagnitude": 0.0014978657771237774,
+                     *           "returnLossDb": 56.490542035350245
+                     *         },
+                     *         {
+                     *           "distanceM": 13.332566930976562,
+                     *           "reflectionMagnitude": 0.0013678776840291772,
+                     *           "returnLossDb": 57.27905471205723
+                     *         },
+                     *         {
+                     *           "distanceM": 13.525792538671874,
+                     *           "reflectionMagnitude": 0.0011412109708579326,
+                     *           "returnLossDb": 58.85268123942015
+                     *         },
+                     *         {
+                     *           "distanceM": 13.719018146367187,
+                     *           "reflectionMagnitude": 0.0007432866349113761,
+                     *           "returnLossDb": 62.57687352412192
+                     *         },
+                     *         {
+                     *           "distanceM": 13.9122437540625,
+                     *           "reflectionMagnitude": 0.0004263644960256962,
+                     *           "returnLossDb": 67.40437933582558
+                     *         },
+                     *         {
+                     *           "distanceM": 14.105469361757812,
+                     *           "reflectionMagnitude": 0.001209897668352841,
+                     *           "returnLossDb": 58.34502720439926
+                     *         },
+                     *         {
+                     *           "distanceM": 14.298694969453125,
+                     *           "reflectionMagnitude": 0.0024798963005702424,
+                     *           "returnLossDb": 52.11132958534441
+                     *         },
+                     *         {
+                     *           "distanceM": 14.491920577148438,
+                     *           "reflectionMagnitude": 0.0039483226663536135,
+                     *           "returnLossDb": 48.071747259405946
+                     *         },
+                     *         {
+                     *           "distanceM": 14.685146184843749,
+                     *           "reflectionMagnitude": 0.0054122439506794325,
+                     *           "returnLossDb": 45.332452726166075
+                     *         },
+                     *         {
+                     *           "distanceM": 14.878371792539062,
+                     *           "reflectionMagnitude": 0.006600174684370216,
+                     *           "returnLossDb": 43.60889139990774
+                     *         },
+                     *         {
+                     *           "distanceM": 15.071597400234374,
+                     *           "reflectionMagnitude": 0.007168401267665899,
+                     *           "returnLossDb": 42.89155384075947
+                     *         },
+                     *         {
+                     *           "distanceM": 15.264823007929687,
+                     *           "reflectionMagnitude": 0.006715007865364792,
+                     *           "returnLossDb": 43.45906948601842
+                     *         },
+                     *         {
+                     *           "distanceM": 15.458048615625,
+                     *           "reflectionMagnitude": 0.004803195734356435,
+                     *           "returnLossDb": 46.36939430253679
+                     *         },
+                     *         {
+                     *           "distanceM": 15.651274223320312,
+                     *           "reflectionMagnitude": 0.0009984349644148497,
+                     *           "returnLossDb": 60.013604374816595
+                     *         },
+                     *         {
+                     *           "distanceM": 15.844499831015625,
+                     *           "reflectionMagnitude": 0.0051457006901221855,
+                     *           "returnLossDb": 45.77110957980363
+                     *         },
+                     *         {
+                     *           "distanceM": 16.037725438710936,
+                     *           "reflectionMagnitude": 0.01394001663489726,
+                     *           "returnLossDb": 37.114734159710295
+                     *         },
+                     *         {
+                     *           "distanceM": 16.23095104640625,
+                     *           "reflectionMagnitude": 0.02565216090485393,
+                     *           "returnLossDb": 31.817520892115297
+                     *         },
+                     *         {
+                     *           "distanceM": 16.42417665410156,
+                     *           "reflectionMagnitude": 0.040402507835578125,
+                     *           "returnLossDb": 27.871833536723408
+                     *         },
+                     *         {
+                     *           "distanceM": 16.617402261796876,
+                     *           "reflectionMagnitude": 0.05815800090632367,
+                     *           "returnLossDb": 24.707810602221677
+                     *         },
+                     *         {
+                     *           "distanceM": 16.810627869492187,
+                     *           "reflectionMagnitude": 0.07871597986992879,
+                     *           "returnLossDb": 22.078741880174782
+                     *         },
+                     *         {
+                     *           "distanceM": 17.003853477187498,
+                     *           "reflectionMagnitude": 0.10169899899124149,
+                     *           "returnLossDb": 19.853666435098628
+                     *         },
+                     *         {
+                     *           "distanceM": 17.197079084882812,
+                     *           "reflectionMagnitude": 0.12656112092913516,
+                     *           "returnLossDb": 17.95399374722156
+                     *         },
+                     *         {
+                     *           "distanceM": 17.390304692578123,
+                     *           "reflectionMagnitude": 0.15260578426139598,
+                     *           "returnLossDb": 16.328580097583757
+                     *         },
+                     *         {
+                     *           "distanceM": 17.583530300273438,
+                     *           "reflectionMagnitude": 0.17901452643170385,
+                     *           "returnLossDb": 14.94223452083154
+                     *         },
+                     *         {
+                     *           "distanceM": 17.77675590796875,
+                     *           "reflectionMagnitude": 0.20488503197183774,
+                     *           "returnLossDb": 13.769795362916135
+                     *         },
+                     *         {
+                     *           "distanceM": 17.969981515664063,
+                     *           "reflectionMagnitude": 0.22927625765911014,
+                     *           "returnLossDb": 12.792818312422229
+                     *         },
+                     *         {
+                     *           "distanceM": 18.163207123359374,
+                     *           "reflectionMagnitude": 0.2512578224801425,
+                     *           "returnLossDb": 11.997608166985216
+                     *         },
+                     *         {
+                     *           "distanceM": 18.35643273105469,
+                     *           "reflectionMagnitude": 0.2699604868917535,
+                     *           "returnLossDb": 11.373995945017244
+                     *         },
+                     *         {
+                     *           "distanceM": 18.54965833875,
+                     *           "reflectionMagnitude": 0.2846244128032907,
+                     *           "returnLossDb": 10.914557047012782
+                     *         },
+                     *         {
+                     *           "distanceM": 18.74288394644531,
+                     *           "reflectionMagnitude": 0.29464200471903,
+                     *           "returnLossDb": 10.614106784810723
+                     *         },
+                     *         {
+                     *           "distanceM": 18.936109554140625,
+                     *           "reflectionMagnitude": 0.29959247633178393,
+                     *           "returnLossDb": 10.469381945527376
+                     *         },
+                     *         {
+                     *           "distanceM": 19.129335161835936,
+                     *           "reflectionMagnitude": 0.2992658399217663,
+                     *           "returnLossDb": 10.47885706848561
+                     *         },
+                     *         {
+                     *           "distanceM": 19.32256076953125,
+                     *           "reflectionMagnitude": 0.29367473628825025,
+                     *           "returnLossDb": 10.642668251193747
+                     *         },
+                     *         {
+                     *           "distanceM": 19.51578637722656,
+                     *           "reflectionMagnitude": 0.2830533558854809,
+                     *           "returnLossDb": 10.962633834919561
+                     *         },
+                     *         {
+                     *           "distanceM": 19.709011984921876,
+                     *           "reflectionMagnitude": 0.2678435842257859,
+                     *           "returnLossDb": 11.442375040234174
+                     *         },
+                     *         {
+                     *           "distanceM": 19.902237592617187,
+                     *           "reflectionMagnitude": 0.2486693700506662,
+                     *           "returnLossDb": 12.087554116652615
+                     *         },
+                     *         {
+                     *           "distanceM": 20.0954632003125,
+                     *           "reflectionMagnitude": 0.22630109889404723,
+                     *           "returnLossDb": 12.906266743047524
+                     *         },
+                     *         {
+                     *           "distanceM": 20.288688808007812,
+                     *           "reflectionMagnitude": 0.20161240023789143,
+                     *           "returnLossDb": 13.909655199562676
+                     *         },
+                     *         {
+                     *           "distanceM": 20.481914415703123,
+                     *           "reflectionMagnitude": 0.17553227781884348,
+                     *           "returnLossDb": 15.112860229014679
+                     *         },
+                     *         {
+                     *           "distanceM": 20.675140023398438,
+                     *           "reflectionMagnitude": 0.1489956991009999,
+                     *           "returnLossDb": 16.536525354393635
+                     *         },
+                     *         {
+                     *           "distanceM": 20.86836563109375,
+                     *           "reflectionMagnitude": 0.12289579792824322,
+                     *           "returnLossDb": 18.20925932644918
+                     *         },
+                     *         {
+                     *           "distanceM": 21.061591238789063,
+                     *           "reflectionMagnitude": 0.09804063819086681,
+                     *           "returnLossDb": 20.171877407830085
+                     *         },
+                     *         {
+                     *           "distanceM": 21.254816846484374,
+                     *           "reflectionMagnitude": 0.07511707734960447,
+                     *           "returnLossDb": 22.485226358297837
+                     *         },
+                     *         {
+                     *           "distanceM": 21.44804245417969,
+                     *           "reflectionMagnitude": 0.05466369318891202,
+                     *           "returnLossDb": 25.246020596891505
+                     *         },
+                     *         {
+                     *           "distanceM": 21.641268061875,
+                     *           "reflectionMagnitude": 0.03705404329436533,
+                     *           "returnLossDb": 28.62328790774282
+                     *         },
+                     *         {
+                     *           "distanceM": 21.83449366957031,
+                     *           "reflectionMagnitude": 0.022490770504790838,
+                     *           "returnLossDb": 32.95991331881341
+                     *         },
+                     *         {
+                     *           "distanceM": 22.027719277265625,
+                     *           "reflectionMagnitude": 0.011010312148081406,
+                     *           "returnLossDb": 39.16400736758111
+                     *         },
+                     *         {
+                     *           "distanceM": 22.220944884960936,
+                     *           "reflectionMagnitude": 0.0024974157861383317,
+                     *           "returnLossDb": 52.050182948782776
+                     *         },
+                     *         {
+                     *           "distanceM": 22.41417049265625,
+                     *           "reflectionMagnitude": 0.0032940287928732554,
+                     *           "returnLossDb": 49.64545218024501
+                     *         },
+                     *         {
+                     *           "distanceM": 22.60739610035156,
+                     *           "reflectionMagnitude": 0.0067083032809716475,
+                     *           "returnLossDb": 43.46774622520979
+                     *         },
+                     *         {
+                     *           "distanceM": 22.800621708046876,
+                     *           "reflectionMagnitude": 0.008161177948544537,
+                     *           "returnLossDb": 41.76494305131561
+                     *         },
+                     *         {
+                     *           "distanceM": 22.993847315742187,
+                     *           "reflectionMagnitude": 0.00810288611193711,
+                     *           "returnLossDb": 41.827205303321044
+                     *         },
+                     *         {
+                     *           "distanceM": 23.187072923437498,
+                     *           "reflectionMagnitude": 0.006986854479268403,
+                     *           "returnLossDb": 43.11436604090677
+                     *         },
+                     *         {
+                     *           "distanceM": 23.380298531132812,
+                     *           "reflectionMagnitude": 0.005240514015072644,
+                     *           "returnLossDb": 45.612522264289694
+                     *         },
+                     *         {
+                     *           "distanceM": 23.573524138828123,
+                     *           "reflectionMagnitude": 0.003241217130301809,
+                     *           "returnLossDb": 49.78583748899286
+                     *         },
+                     *         {
+                     *           "distanceM": 23.766749746523438,
+                     *           "reflectionMagnitude": 0.0012992880642145469,
+                     *           "returnLossDb": 57.72589102273728
+                     *         },
+                     *         {
+                     *           "distanceM": 23.95997535421875,
+                     *           "reflectionMagnitude": 0.00037756879366355306,
+                     *           "returnLossDb": 68.4600781529336
+                     *         }
+                     *       ],
+                     *       "peaks": [
+                     *         {
+                     *           "distanceM": 19.020834681895888,
+                     *           "reflectionMagnitude": 0.3001033396104013,
+                     *           "returnLossDb": 10.454583432635975
+                     *         },
+                     *         {
+                     *           "distanceM": 8.024954463027314,
+                     *           "reflectionMagnitude": 0.15014026814190315,
+                     *           "returnLossDb": 16.470056256878355
+                     *         }
+                     *       ]
+                     *     }
+                     */
+                    "application/json": components["schemas"]["FaultDistanceResult"];
                 };
             };
             /** @description The request is malformed or fails validation (field list in `errors`). */
@@ -4791,6 +5944,104 @@ export interface operations {
             };
         };
     };
+    updateSweep: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["UpdateSweep"];
+            };
+        };
+        responses: {
+            /** @description The sweep as judged now, with every analysed point. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Sweep"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
     exportSweepPoints: {
         parameters: {
             query?: never;
@@ -4832,6 +6083,119 @@ export interface operations {
             /** @description Not found. */
             404: {
                 headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    computeSweepFaultDistance: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody: {
+            content: {
+                "application/json": components["schemas"]["SweepFaultDistanceRequest"];
+            };
+        };
+        responses: {
+            /** @description The response against distance, in full double precision; unbounded values are `null`. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["FaultDistanceResult"];
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body exceeds the size limit. */
+            413: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The body is not in a media type this operation takes (see its request body). */
+            415: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
                     [name: string]: unknown;
                 };
                 content: {

@@ -46,6 +46,15 @@ const CALCULATION_ROUTES: { name: CalculationName; operationId: string; summary:
     summary: 'L-network matching',
     description: 'Every L-network (series/shunt inductor or capacitor pairs) that transforms the load to the conjugate of the source impedance, with component values at the frequency.',
   },
+  {
+    name: 'fault-distance',
+    operationId: 'computeFaultDistance',
+    summary: 'Distance to fault from a wideband sweep',
+    description:
+      'Frequency-domain reflectometry in band-pass mode: the reflection over the swept band, windowed (`hann` by default) and zero-padded, inverse-Fourier-transformed into reflection against distance (time × c × VF / 2), with the line loss out and back removed when `compensateLoss`. ' +
+      'Answers the resolution c·VF/(2·span), the unambiguous range c·VF/(2·step), the response from 0 to the range and its peaks, strongest first. ' +
+      `Frequencies must be evenly spaced (each within 1 % of a step); too few points, uneven spacing, or a range the span cannot resolve are a 422 saying why. For a stored sweep use POST /api/v1/sweeps/{id}/fault-distance.`,
+  },
 ];
 
 /** The answer to a request schema's own example, so /docs shows a request and the answer it really gets. */

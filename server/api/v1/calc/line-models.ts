@@ -1,9 +1,10 @@
 import type { Complex } from '../../../../shared/rf/complex.ts';
-import { findCable, type CableType } from '../../../../shared/rf/cables.ts';
+import { cableLossDbPer100m, findCable, type CableType } from '../../../../shared/rf/cables.ts';
 import { DB_PER_NEPER, M_PER_FT } from '../../../../shared/rf/constants.ts';
 import { RfInputError } from '../../../../shared/rf/errors.ts';
 import { attenuatorSection, lineFromCable, lineFromLossSpec, lineFromRlgc, type LineModel } from '../../../../shared/rf/line.ts';
 import { isConnectorSection, type FeedlineSection, type LineSpec } from '../../../../shared/schemas/calc.ts';
+import type { FaultLine } from '../../../../shared/schemas/fault.ts';
 import { toComplex } from '../../../../shared/schemas/common.ts';
 
 // Line descriptions of requests (one LineSpec, or sections) turned into the models shared/rf transforms
@@ -73,4 +74,24 @@ export function sectionMatchedLossDb(model: LineModel): number {
 /** The models of a request's `line`: one for a LineSpec, one per section for sections (errors name `line.2.cableId`). */
 export function lineModelsOf(line: LineSpec | readonly FeedlineSection[], frequencyHz: number, env: CalculationEnv, field = 'line'): LineModel[] {
   return Array.isArray(line) ? sectionModels(line, frequencyHz, env, field) : [resolveLine(line as LineSpec, frequencyHz, env, field)];
+}
+
+/**
+ * The velocity factor and loss of a line under a distance-to-fault test; a cable's loss is taken at
+ * the centre of the sweep (errors name `line.cableId`).
+ * @example faultLineOf({ cableId: 'rg-213' }, 500e6, catalogOnly) // { velocityFactor: 0.66, lossDbPer100m: ≈ 17.2 }
+ */
+export function faultLineOf(line: FaultLine, centreHz: number, env: CalculationEnv): { velocityFactor: number; lossDbPer100m?: number } {
+  if (line.cableId === undefined) {
+    const lossDbPer100m = line.lossDbPer100m ?? (line.lossDbPer100ft === undefined ? undefined : line.lossDbPer100ft / M_PER_FT);
+    return lossDbPer100m === undefined ? { velocityFactor: line.velocityFactor! } : { velocityFactor: line.velocityFactor!, lossDbPer100m };
+  }
+  const cable = env.findCable(line.cableId);
+  if (!cable) throw new RfInputError('line.cableId', `unknown cable '${line.cableId}'; GET /api/v1/cables lists the available ids`);
+  try {
+    return { velocityFactor: cable.velocityFactor, lossDbPer100m: cableLossDbPer100m(cable, centreHz) };
+  } catch (err) {
+    if (err instanceof RfInputError) throw new RfInputError('line.cableId', `${err.message} (the loss is taken at the centre of the sweep, ${centreHz} Hz)`);
+    throw err;
+  }
 }

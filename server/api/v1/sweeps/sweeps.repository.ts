@@ -5,7 +5,7 @@ import type { SweepDirection } from '../../../../shared/sweep/move.ts';
 import type { Db } from '../../../db/client.ts';
 import { feedlines, sweeps } from '../../../db/schema.ts';
 
-type DbOrTx = Pick<Db, 'select' | 'insert' | 'delete'>;
+type DbOrTx = Pick<Db, 'select' | 'insert' | 'update' | 'delete'>;
 
 export type SweepFormat = 'touchstone' | 'csv' | 'json';
 
@@ -106,6 +106,20 @@ export interface NewSweep {
 export async function insertSweep(db: DbOrTx, v: NewSweep): Promise<{ id: string; createdAt: Date }> {
   const rows = await db.insert(sweeps).values(v).returning({ id: sweeps.id, createdAt: sweeps.createdAt });
   return rows[0]!;
+}
+
+/** New judging figures and the analysis made with them; false when the sweep is not the organisation's. */
+export async function updateSweepAnalysis(
+  db: DbOrTx,
+  q: { organisationId: string; id: string },
+  v: { thresholdSwr: number; mask: SweepMask | null; summary: SweepSummary; verdict: SweepVerdict | null },
+): Promise<boolean> {
+  const rows = await db
+    .update(sweeps)
+    .set(v)
+    .where(and(eq(sweeps.organisationId, q.organisationId), eq(sweeps.id, q.id)))
+    .returning({ id: sweeps.id });
+  return rows.length > 0;
 }
 
 export async function deleteSweep(db: DbOrTx, q: { organisationId: string; id: string }): Promise<boolean> {

@@ -7,20 +7,25 @@ import {
   SweepListSchema,
   SweepMultipartSchema,
   SweepSchema,
+  UpdateSweepSchema,
   type SweepOptions,
 } from '../../../../shared/schemas/sweeps.ts';
+import { FaultDistanceResultSchema, SweepFaultDistanceRequestSchema } from '../../../../shared/schemas/fault.ts';
 import { analyseSweep, type SweepMask } from '../../../../shared/sweep/analyse.ts';
+import { reflectionSamples } from '../../../../shared/sweep/fault-distance.ts';
+import { RfInputError } from '../../../../shared/rf/errors.ts';
 import { analysedPointsToCsv } from '../../../../shared/sweep/csv.ts';
 import type { AppContext } from '../../../context.ts';
 import { callerOf, calculationGuard, requireCaller } from '../../../auth/caller.ts';
-import { authProblems, keyOrSession, meteredProblems } from '../../../auth/openapi.ts';
+import { authProblems, keyOrSession, meteredProblems, rateLimitHeaders } from '../../../auth/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
-import { validateParams } from '../../../http/validate.ts';
+import { validateBody, validateParams } from '../../../http/validate.ts';
 import { apiErrorFromZod } from '../../../http/zod-issues.ts';
-import { problemResponses, registry, json } from '../../../openapi/registry.ts';
+import { calculationProblems, problemResponses, registry, json } from '../../../openapi/registry.ts';
+import { assertFinite, faultDistanceOf, type FaultOptions } from '../calc/operations.ts';
 import { cableIdsIn, calculationEnvFor } from '../cables/cables.env.ts';
 import { findFeedline } from '../feedlines/feedlines.repository.ts';
-import { deleteSweep, findSweep, insertSweep, listSweeps, type SweepHeader, type SweepRecord } from './sweeps.repository.ts';
+import { deleteSweep, findSweep, insertSweep, listSweeps, updateSweepAnalysis, type SweepHeader, type SweepRecord } from './sweeps.repository.ts';
 import { pointsFromJson, prepareSweep, readSweepFile, type SweepMove } from './sweeps.service.ts';
 import { unpackPoints, packPoints } from './sweeps.points.ts';
 import { MAX_SWEEP_FILE_BYTES, SweepFormFieldsSchema, sweepUpload } from './sweeps.upload.ts';
@@ -122,6 +127,25 @@ registry.registerPath({
 });
 
 registry.registerPath({
+  method: 'patch',
+  path: '/api/v1/sweeps/{id}',
+  operationId: 'updateSweep',
+  tags,
+  summary: 'Judge a stored sweep by another threshold or acceptance figure',
+  description: 'Sets `thresholdSwr` and/or `mask` (`null` removes the mask); the bands, the summary and the verdict are worked out again from the stored points, which never change.',
+  security: keyOrSession,
+  request: { params: SweepIdParamsSchema, body: { required: true, ...json(UpdateSweepSchema) } },
+  responses: {
+    200: { description: 'The sweep as judged now, with every analysed point.', ...json(SweepSchema) },
+    ...problemResponses.validation,
+    ...problemResponses.unprocessable,
+    ...authProblems.unauthenticated,
+    ...authProblems.forbidden,
+    ...problemResponses.notFound,
+  },
+});
+
+registry.registerPath({
   method: 'delete',
   path: '/api/v1/sweeps/{id}',
   operationId: 'deleteSweep',
@@ -130,6 +154,25 @@ registry.registerPath({
   security: keyOrSession,
   request: { params: SweepIdParamsSchema },
   responses: { 204: { description: 'Deleted.' }, ...problemResponses.validation, ...authProblems.unauthenticated, ...authProblems.forbidden, ...problemResponses.notFound },
+});
+
+registry.registerPath({
+  method: 'post',
+  path: '/api/v1/sweeps/{id}/fault-distance',
+  operationId: 'computeSweepFaultDistance',
+  tags,
+  summary: 'Distance to fault from a stored sweep',
+  description:
+    'As POST /api/v1/fault-distance, on the measured points of a stored sweep (before any move through a line; from any source the upload accepts: Touchstone, CSV or JSON), against its `referenceOhm`. ' +
+    'The sweep must be evenly spaced in frequency; one that is not is a 422 saying how far off it is. One calculation unit.',
+  security: keyOrSession,
+  request: { params: SweepIdParamsSchema, body: { required: true, ...json(SweepFaultDistanceRequestSchema) } },
+  responses: {
+    200: { description: 'The response against distance, in full double precision; unbounded values are `null`.', headers: rateLimitHeaders, ...json(FaultDistanceResultSchema) },
+    ...calculationProblems,
+    ...meteredProblems,
+    ...problemResponses.notFound,
+  },
 });
 
 /** Characters safe in a Content-Disposition file name on every platform. */
@@ -251,6 +294,44 @@ export function sweepsRouter(ctx: AppContext): Router {
       .type('text/csv; charset=utf-8')
       .attachment(fileNameFor(record.name))
       .send(analysedPointsToCsv(analysisOf(record).points));
+  });
+
+  router.post(
+    '/sweeps/:id/fault-distance',
+    ...calculationGuard(ctx, 'sweepFaultDistance'),
+    validateParams(SweepIdParamsSchema),
+    validateBody(SweepFaultDistanceRequestSchema),
+    async (_req, res) => {
+      const who = callerOf(res);
+      const { id } = res.locals.params as { id: string };
+      const options = res.locals.body as FaultOptions;
+      const record = await findSweep(db, { organisationId: who.organisationId, id });
+      if (!record) throw notFound();
+      const env = await calculationEnvFor(db, who.organisationId, cableIdsIn(options.line));
+      try {
+        const samples = reflectionSamples(unpackPoints(record.measuredPoints), record.referenceOhm);
+        res.json(assertFinite(faultDistanceOf(samples, options, env)));
+      } catch (err) {
+        // The points are not in this request: a problem with them is addressed to the sweep.
+        if (err instanceof RfInputError && err.field.startsWith('points')) throw new RfInputError('id', `in the stored sweep${err.field === 'points' ? '' : `, ${err.field.replace(/^points\.(\d+).*/, 'point $1, counting from 0')}`}: ${err.message}`);
+        throw err;
+      }
+    },
+  );
+
+  router.patch('/sweeps/:id', caller, validateParams(SweepIdParamsSchema), validateBody(UpdateSweepSchema), async (_req, res) => {
+    const { id } = res.locals.params as { id: string };
+    const change = res.locals.body as z.output<typeof UpdateSweepSchema>;
+    const organisationId = callerOf(res).organisationId;
+    const record = await findSweep(db, { organisationId, id });
+    if (!record) throw notFound();
+    const thresholdSwr = change.thresholdSwr ?? record.thresholdSwr;
+    // The schema's refinement makes a mask one of the two forms SweepMask names.
+    const mask = change.mask === undefined ? record.mask : (change.mask as SweepMask | null);
+    const points = unpackPoints(record.movedPoints ?? record.measuredPoints);
+    const { summary, verdict } = analyseSweep(points, { referenceOhm: record.referenceOhm, thresholdSwr, mask: mask ?? undefined });
+    if (!(await updateSweepAnalysis(db, { organisationId, id }, { thresholdSwr, mask, summary, verdict: verdict ?? null }))) throw notFound();
+    res.json(sweepView({ ...record, thresholdSwr, mask, summary, verdict: verdict ?? null }));
   });
 
   router.delete('/sweeps/:id', caller, validateParams(SweepIdParamsSchema), async (_req, res) => {
