@@ -21,13 +21,22 @@ export interface Browser {
   close(): Promise<void>;
 }
 
-/** Debian's Chromium, headless, with a profile of its own that is removed afterwards. */
-export async function openBrowser(viewport = { width: 1280, height: 900 }): Promise<Browser> {
+/** The two widths the console is checked at: a phone held upright and a laptop. */
+export const PHONE = { width: 390, height: 844 } as const;
+export const LAPTOP = { width: 1280, height: 800 } as const;
+
+/**
+ * Debian's Chromium, headless, with a profile of its own that is removed afterwards. `touch` makes
+ * it a phone: taps instead of clicks, and the mobile viewport rules.
+ */
+export async function openBrowser(viewport: { width: number; height: number } = { width: 1280, height: 900 }, options: { touch?: boolean } = {}): Promise<Browser> {
   const profile = mkdtempSync(path.join(os.tmpdir(), 'gammaline-e2e-'));
   const context = await chromium.launchPersistentContext(profile, {
     executablePath: '/usr/bin/chromium',
     headless: true,
     viewport,
+    hasTouch: options.touch ?? false,
+    isMobile: options.touch ?? false,
     args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
   });
   context.setDefaultTimeout(15_000);
@@ -49,7 +58,8 @@ export async function signIn(page: Page, who: { email: string; password: string 
   await page.getByLabel('Password', { exact: true }).fill(who.password);
   await page.getByRole('button', { name: 'Sign in', exact: true }).click();
   await page.waitForURL((url) => !url.pathname.startsWith('/sign-in'));
-  await page.getByTestId('signed-in-as').waitFor();
+  // On a phone the name is in the header's narrow layout and may be hidden; it is there all the same.
+  await page.getByTestId('signed-in-as').waitFor({ state: 'attached' });
 }
 
 /** A full-page screenshot under test-artifacts/ (git-ignored). */
@@ -76,4 +86,25 @@ export async function apiCall(pathname: string, init: { method?: string; key?: s
     // Not JSON; keep the text.
   }
   return { status: response.status, body };
+}
+
+/**
+ * Collects what would show as red in the browser's console: console errors, uncaught exceptions and
+ * answers with an error status (Chromium logs each of those as "Failed to load resource").
+ */
+export function watchConsole(page: Page): { problems: string[] } {
+  const problems: string[] = [];
+  page.on('console', (message) => {
+    if (message.type() === 'error') problems.push(`console: ${message.text()}`);
+  });
+  page.on('pageerror', (error) => problems.push(`exception: ${error.message}`));
+  page.on('response', (response) => {
+    if (response.status() >= 400) problems.push(`${response.status()} ${response.request().method()} ${new URL(response.url()).pathname}`);
+  });
+  return { problems };
+}
+
+/** How far the page scrolls sideways beyond the window; 0 when everything fits. */
+export async function sidewaysOverflow(page: Page): Promise<number> {
+  return page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth);
 }

@@ -4,6 +4,7 @@ import { createPinia, setActivePinia } from 'pinia';
 import { createMemoryHistory } from 'vue-router';
 import App from '../App.vue';
 import { createConsoleRouter } from '../router/index.ts';
+import { SESSION_HINT_KEY } from '../stores/session.ts';
 import { THEME_STORAGE_KEY } from '../stores/theme.ts';
 import { fakeApi, json, notSignedIn, sessionOf } from '../test/fakeApi.ts';
 
@@ -20,6 +21,8 @@ async function mountAt(path: string) {
 
 beforeEach(() => {
   localStorage.setItem(THEME_STORAGE_KEY, 'light');
+  // A browser that was signed in last time asks the server who it is (a first visit does not).
+  localStorage.setItem(SESSION_HINT_KEY, '1');
   vi.stubGlobal(
     'fetch',
     vi.fn(async () => {
@@ -96,8 +99,9 @@ describe('console shell', () => {
   it('carries the safety note in the footer', async () => {
     const { wrapper } = await mountAt('/');
     const footer = wrapper.get('footer').text();
-    expect(footer).toContain('high voltages on lines and connectors');
+    expect(footer).toContain('high voltages on lines, connectors and matching components');
     expect(footer).toContain('RF fields');
+    expect(footer).toContain('tower work');
     wrapper.unmount();
   });
 
@@ -111,6 +115,7 @@ describe('console shell', () => {
     await vi.waitFor(() => expect(document.documentElement.dataset.theme).toBe('dark'));
 
     expect(toggle.attributes('aria-pressed')).toBe('true');
+    expect(toggle.text()).toContain('Dark theme: on');
     expect(localStorage.getItem(THEME_STORAGE_KEY)).toBe('dark');
     wrapper.unmount();
   });

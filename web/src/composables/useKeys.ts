@@ -1,9 +1,11 @@
 import { ref, shallowRef } from 'vue';
 import { useDialog } from 'naive-ui';
 import { api, unwrap, type Schemas } from '../api/client.ts';
+import { formatCount } from '../utils/format.ts';
 import { useProblems } from './useProblems.ts';
 
 type ApiKey = Schemas['ApiKey'];
+export type KeyLimits = Pick<Schemas['UpdateApiKey'], 'dailyQuota' | 'burstPerMinute'>;
 
 /** The keys the member manages (admins: every key of the organisation), with revoke and quota. */
 export function useKeys() {
@@ -42,16 +44,16 @@ export function useKeys() {
     });
   }
 
-  async function setQuota(key: ApiKey, dailyQuota: number): Promise<boolean> {
+  async function setLimits(key: ApiKey, limits: KeyLimits): Promise<boolean> {
     const updated = await attempt(
-      () => unwrap(api.PATCH('/api/v1/keys/{id}', { params: { path: { id: key.id } }, body: { dailyQuota } })),
-      'Could not change the quota',
+      () => unwrap(api.PATCH('/api/v1/keys/{id}', { params: { path: { id: key.id } }, body: limits })),
+      'Could not change the limits',
     );
     if (!updated) return false;
     replace(updated);
-    message.success(`${updated.name}: ${updated.dailyQuota} units per day.`);
+    message.success(`${updated.name}: ${formatCount(updated.dailyQuota)} units per day, ${formatCount(updated.burstPerMinute)} requests per minute.`);
     return true;
   }
 
-  return { keys, loading, load, replace, confirmRevoke, setQuota };
+  return { keys, loading, load, replace, confirmRevoke, setLimits };
 }

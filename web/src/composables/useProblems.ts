@@ -2,14 +2,8 @@ import { useMessage } from 'naive-ui';
 import { useRoute, useRouter } from 'vue-router';
 import { asProblem } from '../api/client.ts';
 import type { ApiProblem } from '../api/problem.ts';
+import { problemLine } from '../api/problemText.ts';
 import { useSessionStore } from '../stores/session.ts';
-
-/** Text for a person: the problem's title and detail, plus the first field errors. */
-export function describeProblem(problem: ApiProblem): string {
-  const head = problem.detail ? `${problem.title}: ${problem.detail}` : problem.title;
-  const fields = (problem.errors ?? []).slice(0, 3).map((e) => `${e.field || 'body'}: ${e.message}`);
-  return fields.length > 0 ? `${head} (${fields.join('; ')})` : head;
-}
 
 /**
  * Shows failed calls as Naive UI messages. A 401 on a console call means the session is gone,
@@ -29,7 +23,7 @@ export function useProblems() {
       void router.push({ name: 'sign-in', query: { next: route.fullPath } });
       return problem;
     }
-    message.error(context ? `${context}. ${describeProblem(problem)}` : describeProblem(problem), { duration: 8000, closable: true });
+    message.error(context ? `${context}. ${problemLine(problem)}` : problemLine(problem), { duration: 8000, closable: true });
     return problem;
   }
 

@@ -1,7 +1,7 @@
 import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 import { createPinia, setActivePinia } from 'pinia';
 import { fakeApi, json, notSignedIn, sessionOf } from '../test/fakeApi.ts';
-import { SESSION_HINT_KEY, useSessionStore } from './session.ts';
+import { ASK_HINT, SESSION_HINT_KEY, useSessionStore } from './session.ts';
 
 beforeEach(() => {
   setActivePinia(createPinia());
@@ -13,7 +13,17 @@ afterEach(() => {
 });
 
 describe('the console session on page load', () => {
-  it('asks the server when it has no hint, and remembers that nobody was signed in', async () => {
+  it('does not ask the server on a first visit (no hint: nobody ever signed in from this browser)', async () => {
+    const seen = fakeApi({ 'GET /api/v1/session': notSignedIn });
+    const session = useSessionStore();
+    await session.ensureLoaded();
+    expect(seen).toEqual([]);
+    expect(session.signedIn).toBe(false);
+    expect(localStorage.getItem(SESSION_HINT_KEY)).toBe('0');
+  });
+
+  it('asks the server when the last visit could not tell, and remembers that nobody was signed in', async () => {
+    localStorage.setItem(SESSION_HINT_KEY, ASK_HINT);
     const seen = fakeApi({ 'GET /api/v1/session': notSignedIn });
     await useSessionStore().ensureLoaded();
     expect(seen.map((r) => `${r.method} ${new URL(r.url).pathname}`)).toEqual(['GET /api/v1/session']);
@@ -46,23 +56,23 @@ describe('the console session on page load', () => {
     expect(localStorage.getItem(SESSION_HINT_KEY)).toBe('1');
   });
 
-  it('forgets the hint instead of recording "signed out" when the server could not answer', async () => {
+  it('records "ask next time" instead of "signed out" when the server could not answer', async () => {
     localStorage.setItem(SESSION_HINT_KEY, '1');
     const unavailable = () => json({ type: 'urn:gammaline:problem:unavailable', title: 'Service unavailable', status: 503, detail: 'The database is unreachable; retry shortly.' }, 503);
     fakeApi({ 'GET /api/v1/session': unavailable, 'DELETE /api/v1/session': unavailable });
     const session = useSessionStore();
     await session.ensureLoaded();
     expect(session.signedIn).toBe(false);
-    expect(localStorage.getItem(SESSION_HINT_KEY)).toBeNull();
+    expect(localStorage.getItem(SESSION_HINT_KEY)).toBe(ASK_HINT);
     localStorage.setItem(SESSION_HINT_KEY, '1');
     await session.signOut().catch(() => {});
-    expect(localStorage.getItem(SESSION_HINT_KEY)).toBeNull();
+    expect(localStorage.getItem(SESSION_HINT_KEY)).toBe(ASK_HINT);
   });
 
-  it('forgets the hint when the network is down', async () => {
+  it('asks again next time when the network is down', async () => {
     localStorage.setItem(SESSION_HINT_KEY, '1');
     vi.stubGlobal('fetch', vi.fn(async () => { throw new TypeError('offline'); }));
     await useSessionStore().ensureLoaded();
-    expect(localStorage.getItem(SESSION_HINT_KEY)).toBeNull();
+    expect(localStorage.getItem(SESSION_HINT_KEY)).toBe(ASK_HINT);
   });
 });

@@ -6,27 +6,29 @@ import type { Role } from '../router/routes.ts';
 export type SessionView = Schemas['Session'];
 
 /**
- * Whether this browser was signed in when the console last knew: '1' or '0'. On a page load after a
- * sign-out (or after a visit that found nobody signed in) the console then skips asking the server,
- * whose 401 would otherwise show as a failed request in the browser's console on every visit. With
- * no hint (a first visit, storage cleared or blocked) it asks.
+ * What this browser knew of its session when the console last looked: '1' signed in, '0' signed
+ * out, 'ask' unknown (the server could not answer). A session only begins through this console's
+ * sign-in, which writes '1', so a browser with no hint at all (a first visit) has none, and the
+ * console does not ask the server: its 401 would show as a failed request in the browser's console.
+ * With storage blocked (some privacy modes) it always asks.
  */
 export const SESSION_HINT_KEY = 'gammaline.signedIn';
+export const ASK_HINT = 'ask';
 
-function readHint(): '1' | '0' | null {
+function readHint(): '1' | '0' | 'ask' | 'none' {
   try {
     const v = globalThis.localStorage?.getItem(SESSION_HINT_KEY);
-    return v === '1' || v === '0' ? v : null;
+    if (v === '1' || v === '0' || v === ASK_HINT) return v;
+    return globalThis.localStorage ? 'none' : 'ask';
   } catch {
-    return null; // storage blocked (privacy modes): always ask
+    return 'ask';
   }
 }
 
-/** `null` forgets: the next page load asks the server. */
+/** `null` records "unknown": the next page load asks the server. */
 function writeHint(signedIn: boolean | null): void {
   try {
-    if (signedIn === null) globalThis.localStorage?.removeItem(SESSION_HINT_KEY);
-    else globalThis.localStorage?.setItem(SESSION_HINT_KEY, signedIn ? '1' : '0');
+    globalThis.localStorage?.setItem(SESSION_HINT_KEY, signedIn === null ? ASK_HINT : signedIn ? '1' : '0');
   } catch {
     /* see readHint */
   }
@@ -56,9 +58,10 @@ export const useSessionStore = defineStore('session', () => {
   /** Asks the server who we are; a 401 simply means nobody is signed in. */
   function ensureLoaded(): Promise<void> {
     if (loaded.value) return Promise.resolve();
-    if (readHint() === '0') {
-      // The server said nobody was signed in here: a session can only begin through this console's
-      // sign-in, which sets the hint again.
+    const hint = readHint();
+    if (hint === '0' || hint === 'none') {
+      // Nobody signed in here since the server last said so (or ever): a session can only begin
+      // through this console's sign-in, which sets the hint again.
       set(null);
       return Promise.resolve();
     }

@@ -39,3 +39,49 @@ export function formatImpedance(z: { re: number; im: number } | null | undefined
   const sign = z.im < 0 ? '−' : '+';
   return `${formatNumber(z.re, digits)} ${sign} j${formatNumber(Math.abs(z.im), digits)} Ω`;
 }
+
+/*
+ * One precision per quantity, used on every page, so one figure reads the same wherever it appears.
+ * The API keeps full precision; the JSON shown beside each result has it.
+ */
+
+/** SWR to two decimals: "1.19 : 1"; null is a total reflection. */
+export function formatSwr(swr: number | null | undefined): string {
+  if (swr === undefined) return '—';
+  if (swr === null) return 'unbounded (total reflection)';
+  return `${swr.toFixed(2)} : 1`;
+}
+
+/** A level or loss in dB to two decimals. */
+export function formatDb(db: number | null | undefined): string {
+  if (db === null || db === undefined) return '—';
+  return `${db.toFixed(2)} dB`;
+}
+
+/** A length to the centimetre: "9.00 m", "26.00 m". */
+export function formatLengthM(metres: number | null | undefined): string {
+  if (metres === null || metres === undefined) return '—';
+  return `${metres.toFixed(2)} m`;
+}
+
+/** A length in feet to the hundredth, as the metric one is kept to the centimetre. */
+export function formatLengthFt(feet: number | null | undefined): string {
+  if (feet === null || feet === undefined) return '—';
+  return `${feet.toFixed(2)} ft`;
+}
+
+/**
+ * A frequency in MHz with as many decimals as the sweep's step needs to tell neighbouring points
+ * apart (at least three: kHz), so "14.205 MHz" in a list and on the sweep's page agree.
+ * @example formatMhz(7_150_000, 25_000) // "7.150 MHz"
+ */
+export function formatMhz(hz: number | null | undefined, stepHz?: number): string {
+  if (hz === null || hz === undefined) return '—';
+  const decimals = stepHz && stepHz > 0 ? Math.min(6, Math.max(3, Math.ceil(-Math.log10(stepHz / 1e6)))) : 3;
+  return `${(hz / 1e6).toFixed(decimals)} MHz`;
+}
+
+/** The step between points of a sweep, from its range and its count. */
+export function sweepStepHz(summary: { startHz: number; stopHz: number; pointCount: number }): number | undefined {
+  return summary.pointCount > 1 ? (summary.stopHz - summary.startHz) / (summary.pointCount - 1) : undefined;
+}

@@ -24,12 +24,17 @@ describe('the Try page with a batch answer full of cautions', () => {
       'GET /api/v1/cables': () => json({ cables: [] }),
       'GET /api/v1/keys': () => json({ keys: [] }),
       'GET /api/v1/feedlines': () => json({ feedlines: [] }),
-      'POST /api/v1/batch': () => json({ results: [1, 2, 3, 4, 5].map((i) => ({ ok: true, output: line(i) })) }),
+      'POST /api/v1/batch': () =>
+        new Response(
+          [1, 2, 3, 4, 5].map((i) => JSON.stringify({ line: i, ok: true, output: line(i) })).join('\n') +
+            `\n${JSON.stringify({ end: 'complete', summary: { items: 5, succeeded: 5, failed: 0, unitsCharged: 5 } })}\n`,
+          { headers: { 'content-type': 'application/x-ndjson' } },
+        ),
     });
     const router = createConsoleRouter(createMemoryHistory());
     const wrapper = mount(Harness, { global: { plugins: [createPinia(), router] }, attachTo: document.body });
     await flushPromises();
-    await wrapper.get('[data-endpoint="batch"] input').setValue(true);
+    await wrapper.get('[data-choice="batch"] input').setValue(true);
     await flushPromises();
     await wrapper.get('form.try-view__form').trigger('submit');
     await flushPromises();

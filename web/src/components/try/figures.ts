@@ -1,36 +1,41 @@
 import { api, unwrap, type Schemas } from '../../api/client.ts';
-import { formatFrequency, formatImpedance, formatNumber } from '../../utils/format.ts';
+import { formatCount, formatDb, formatLengthM, formatFrequency, formatImpedance, formatNumber, formatSwr } from '../../utils/format.ts';
+import { streamBatch, type BatchAnswer } from './batchStream.ts';
 import type { TryRequest } from './request.ts';
 
 /** The API's answer to a Try request, tagged with the endpoint that gave it. */
 export type TryAnswer =
   | { endpoint: 'mismatch'; body: Schemas['MismatchResult'] }
   | { endpoint: 'reflection'; body: Schemas['ReflectionResult'] }
-  | { endpoint: 'line'; body: Schemas['LineResult'] }
+  | { endpoint: 'line'; body: Schemas['LineResult']; /** The sections' own labels, from the request, to name each in the answer. */ sectionLabels?: (string | undefined)[] }
   | { endpoint: 'refer'; body: Schemas['ReferResult'] }
   | { endpoint: 'match'; body: Schemas['MatchResult'] }
-  | { endpoint: 'batch'; body: Schemas['BatchResponse'] }
+  | { endpoint: 'batch'; body: BatchAnswer }
   | { endpoint: 'attenuation'; body: Schemas['CableAttenuation'] };
 
 /**
  * Sends a Try request with the console session. Bodies were checked against the same zod schemas
  * the server validates with, so the casts only restate what the form built.
  */
-export async function sendTry(request: TryRequest): Promise<TryAnswer> {
+export async function sendTry(request: TryRequest, onProgress: (answered: number) => void = () => {}): Promise<TryAnswer> {
   switch (request.endpoint) {
     case 'mismatch':
       return { endpoint: 'mismatch', body: await unwrap(api.POST('/api/v1/mismatch', { body: request.body as Schemas['MismatchRequest'] })) };
     case 'reflection':
       return { endpoint: 'reflection', body: await unwrap(api.POST('/api/v1/reflection', { body: request.body as Schemas['ReflectionRequest'] })) };
     case 'line':
-      return { endpoint: 'line', body: await unwrap(api.POST('/api/v1/line', { body: request.body as Schemas['LineRequest'] })) };
+    {
+      const body = request.body as Schemas['LineRequest'];
+      const sectionLabels = Array.isArray(body.line) ? body.line.map((section) => (section as { label?: string }).label) : undefined;
+      return { endpoint: 'line', body: await unwrap(api.POST('/api/v1/line', { body })), sectionLabels };
+    }
     case 'refer':
       return { endpoint: 'refer', body: await unwrap(api.POST('/api/v1/refer', { body: request.body as Schemas['ReferRequest'] })) };
     case 'match':
       return { endpoint: 'match', body: await unwrap(api.POST('/api/v1/match', { body: request.body as Schemas['MatchRequest'] })) };
     case 'batch':
-      // The JSON answer: the console sends application/json, never the NDJSON stream.
-      return { endpoint: 'batch', body: (await unwrap(api.POST('/api/v1/batch', { body: request.body as Schemas['BatchRequest'] }))) as Schemas['BatchResponse'] };
+      // As NDJSON, so the count of answered items grows while the rest are computed.
+      return { endpoint: 'batch', body: await streamBatch((request.body as { items: unknown[] }).items, onProgress) };
     case 'attenuation':
       return {
         endpoint: 'attenuation',
@@ -58,8 +63,8 @@ export interface FigureGroup {
   figures: Figure[];
 }
 
-const swrText = (v: number | null | undefined) => (v === null ? 'unbounded (total reflection)' : `${formatNumber(v)} : 1`);
-const dbText = (v: number | null | undefined, unbounded: string) => (v === null ? unbounded : v === undefined ? '—' : `${formatNumber(v)} dB`);
+const swrText = (v: number | null | undefined) => formatSwr(v);
+const dbText = (v: number | null | undefined, unbounded: string) => (v === null ? unbounded : formatDb(v));
 const wText = (v: number | undefined) => (v === undefined ? '—' : `${formatNumber(v)} W`);
 
 function mismatchFigures(r: {
@@ -105,15 +110,19 @@ function batchOutputText(output: Record<string, unknown>): string {
 export function figuresOf(answer: TryAnswer): { groups: FigureGroup[]; cautions: string[] } {
   switch (answer.endpoint) {
     case 'batch': {
-      const results = answer.body.results;
+      // Items are counted from 1, as the stream's `line` counts them; a refusal's field path is
+      // within its own item (`input.swr`), so the row's number and the path never disagree.
+      const { results, end } = answer.body;
       const computed = results.filter((r) => r.ok).length;
       const cautions: string[] = [];
-      const figures = results.map((r, i) => {
-        if (!r.ok) return { name: `results.${i}`, label: `Item ${i + 1}`, value: `refused (${r.problem.status}): ${r.problem.detail ?? r.problem.title}` };
-        for (const c of (r.output as { cautions?: string[] }).cautions ?? []) cautions.push(`Item ${i + 1}: ${c}`);
-        return { name: `results.${i}`, label: `Item ${i + 1}`, value: batchOutputText(r.output as Record<string, unknown>) };
+      const figures = results.map((r) => {
+        if (!r.ok) return { name: `line.${r.line}`, label: `Item ${r.line}`, value: `refused (${r.problem.status}): ${r.problem.detail || r.problem.title}` };
+        for (const c of (r.output as { cautions?: string[] }).cautions ?? []) cautions.push(`Item ${r.line}: ${c}`);
+        return { name: `line.${r.line}`, label: `Item ${r.line}`, value: batchOutputText(r.output) };
       });
-      return { groups: [{ heading: `${results.length} item(s): ${computed} computed, ${results.length - computed} refused`, figures }], cautions };
+      const items = results.length === 1 ? '1 item' : `${formatCount(results.length)} items`;
+      const tail = end === null ? '; the answer was cut off before its end' : end.end === 'stopped' ? `; stopped early: ${end.problem?.detail ?? 'see the JSON'}` : '';
+      return { groups: [{ heading: `${items}: ${formatCount(computed)} computed, ${formatCount(results.length - computed)} refused${tail}`, figures }], cautions };
     }
     case 'mismatch': {
       const r = answer.body;
@@ -145,7 +154,7 @@ export function figuresOf(answer: TryAnswer): { groups: FigureGroup[]; cautions:
           heading: 'Line',
           figures: [
             { name: 'inputOhm', label: 'Input impedance', value: formatImpedance(r.inputOhm) },
-            { name: 'matchedLossDb', label: 'Matched loss', value: `${formatNumber(r.matchedLossDb)} dB` },
+            { name: 'matchedLossDb', label: 'Matched loss', value: formatDb(r.matchedLossDb) },
             { name: 'totalLossDb', label: 'Total loss with this load', value: dbText(r.totalLossDb, 'no power reaches the load') },
             { name: 'electricalLengthDeg', label: 'Electrical length', value: `${formatNumber(r.electricalLengthDeg)}°` },
           ],
@@ -188,8 +197,8 @@ export function figuresOf(answer: TryAnswer): { groups: FigureGroup[]; cautions:
           heading: 'Section by section, from the transmitter',
           figures: r.sections.map((section, i) => ({
             name: `sections.${i}`,
-            label: `Section ${i + 1}`,
-            value: `SWR ${swrText(section.atInput.swr)} at its input, ${formatNumber(section.matchedLossDb)} dB matched loss`,
+            label: answer.sectionLabels?.[i] || `Section ${i + 1}`,
+            value: `SWR ${swrText(section.atInput.swr)} at its input, ${formatDb(section.matchedLossDb)} matched loss`,
           })),
         });
       }
@@ -198,7 +207,7 @@ export function figuresOf(answer: TryAnswer): { groups: FigureGroup[]; cautions:
     case 'refer': {
       const r = answer.body;
       const line: Figure[] = [
-        { name: 'matchedLossDb', label: 'Matched loss', value: `${formatNumber(r.matchedLossDb)} dB` },
+        { name: 'matchedLossDb', label: 'Matched loss', value: formatDb(r.matchedLossDb) },
         { name: 'totalLossDb', label: 'Total loss', value: dbText(r.totalLossDb, 'no power reaches the load') },
       ];
       if (r.lineDissipationW !== undefined) line.push({ name: 'lineDissipationW', label: 'Burned in the line', value: wText(r.lineDissipationW) });
@@ -214,9 +223,10 @@ export function figuresOf(answer: TryAnswer): { groups: FigureGroup[]; cautions:
     case 'match': {
       const groups = answer.body.solutions.map((s, i) => ({
         heading: `Solution ${i + 1}: ${s.topology === 'shuntAtLoad' ? 'shunt element across the load' : 'series element at the load'}`,
+        // Elements come from the source to the load: say which one the transmitter sees first.
         figures: s.elements.map((e, j) => ({
           name: `solutions.${i}.elements.${j}`,
-          label: `${e.position} ${e.kind}`,
+          label: `${j === 0 ? 'Transmitter side' : j === s.elements.length - 1 ? 'Load side' : 'Then'}: ${e.position} ${e.kind}`,
           value:
             e.valueH !== undefined
               ? `${formatNumber(e.valueH * 1e6)} µH (X = ${formatNumber(e.reactanceOhm)} Ω)`
@@ -231,10 +241,10 @@ export function figuresOf(answer: TryAnswer): { groups: FigureGroup[]; cautions:
       const r = answer.body;
       const figures: Figure[] = [
         { name: 'frequencyHz', label: 'Frequency', value: formatFrequency(r.frequencyHz) },
-        { name: 'lossDbPer100m', label: 'Matched loss per 100 m', value: `${formatNumber(r.lossDbPer100m)} dB` },
-        { name: 'lossDbPer100ft', label: 'Matched loss per 100 ft', value: `${formatNumber(r.lossDbPer100ft)} dB` },
+        { name: 'lossDbPer100m', label: 'Matched loss per 100 m', value: formatDb(r.lossDbPer100m) },
+        { name: 'lossDbPer100ft', label: 'Matched loss per 100 ft', value: formatDb(r.lossDbPer100ft) },
       ];
-      if (r.lossDb !== undefined) figures.push({ name: 'lossDb', label: `Loss of ${formatNumber(r.lengthM)} m`, value: `${formatNumber(r.lossDb)} dB` });
+      if (r.lossDb !== undefined) figures.push({ name: 'lossDb', label: `Loss of ${formatLengthM(r.lengthM)}`, value: formatDb(r.lossDb) });
       return { groups: [{ heading: 'Cable loss', figures }], cautions: [] };
     }
   }

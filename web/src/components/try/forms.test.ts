@@ -136,7 +136,7 @@ describe('a saved feed line on the Try page', () => {
     const one = { inputOhm: { re: 75, im: 0 }, characteristicOhm: { re: 50, im: 0 }, electricalLengthDeg: 10, lengthWavelengths: 0.03, matchedLossDb: 0.5, totalLossDb: 0.6, mismatchExtraLossDb: 0.1, atLoad: end, atInput: end, cautions: [] };
     const { groups } = figuresOf({ endpoint: 'line', body: { ...one, sections: [one, one] } as never });
     const bySection = groups.find((g) => g.heading.startsWith('Section by section'));
-    expect(bySection?.figures.map((f) => f.value)).toEqual(['SWR 1.500 : 1 at its input, 0.5000 dB matched loss', 'SWR 1.500 : 1 at its input, 0.5000 dB matched loss']);
+    expect(bySection?.figures.map((f) => f.value)).toEqual(['SWR 1.50 : 1 at its input, 0.50 dB matched loss', 'SWR 1.50 : 1 at its input, 0.50 dB matched loss']);
   });
 });
 
@@ -166,12 +166,19 @@ describe('the batch form of the Try page', () => {
     wrapper.unmount();
   });
 
-  it('reads a batch answer item by item, refusals and cautions included', () => {
-    const problem = { type: 'urn:gammaline:problem:unprocessable', title: 'The input cannot be computed', status: 422, detail: 'items.1.input.swr: Too small' };
+  it('reads a streamed batch answer item by item, numbered as the stream numbers them, refusals and cautions included', () => {
+    const problem = { type: 'urn:gammaline:problem:unprocessable', title: 'The input cannot be computed', status: 422, detail: 'input.swr: Too small' };
     const line = { inputOhm: { re: 50, im: 0 }, cautions: ['Caution: the computed RMS voltage…'] };
-    const { groups, cautions } = figuresOf({ endpoint: 'batch', body: { results: [{ ok: true, output: { swr: 1.5 } }, { ok: false, problem }, { ok: true, output: line }] } as never });
-    expect(groups[0]!.heading).toBe('3 item(s): 2 computed, 1 refused');
-    expect(groups[0]!.figures.map((f) => f.value)).toEqual(['SWR 1.500 : 1', 'refused (422): items.1.input.swr: Too small', 'input impedance 50.00 + j0 Ω']);
+    const results = [
+      { line: 1, ok: true as const, output: { swr: 1.5 } },
+      { line: 2, ok: false as const, problem },
+      { line: 3, ok: true as const, output: line },
+    ];
+    const end = { end: 'complete' as const, summary: { items: 3, succeeded: 2, failed: 1, unitsCharged: 3 } };
+    const { groups, cautions } = figuresOf({ endpoint: 'batch', body: { results, end } });
+    expect(groups[0]!.heading).toBe('3 items: 2 computed, 1 refused');
+    expect(groups[0]!.figures.map((f) => `${f.label}: ${f.value}`)).toEqual(['Item 1: SWR 1.50 : 1', 'Item 2: refused (422): input.swr: Too small', 'Item 3: input impedance 50.00 + j0 Ω']);
     expect(cautions).toEqual(['Item 3: Caution: the computed RMS voltage…']);
+    expect(figuresOf({ endpoint: 'batch', body: { results, end: null } }).groups[0]!.heading).toContain('cut off');
   });
 });

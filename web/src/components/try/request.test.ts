@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { curlCommand, mhzToHz, requestUrl, scaled, type TryRequest } from './request.ts';
+import { convertLength, convertLossPer100, curlCommand, mhzToHz, requestUrl, scaled, type TryRequest } from './request.ts';
 
 const mismatch: TryRequest = { endpoint: 'mismatch', method: 'POST', path: '/api/v1/mismatch', body: { forwardPowerW: 100, reflectedPowerW: 4 } };
 
@@ -32,5 +32,38 @@ describe('the request written out for people', () => {
     const get: TryRequest = { endpoint: 'attenuation', method: 'GET', path: '/api/v1/cables/rg-213/attenuation', cableId: 'rg-213', query: { frequencyHz: 14_200_000, lengthFt: 100 } };
     expect(requestUrl('http://h', get)).toBe('http://h/api/v1/cables/rg-213/attenuation?frequencyHz=14200000&lengthFt=100');
     expect(curlCommand('http://h', get, null)).not.toContain('-X POST');
+  });
+});
+
+describe('a batch written out as curl', () => {
+  const batch = (count: number): TryRequest => ({
+    endpoint: 'batch',
+    method: 'POST',
+    path: '/api/v1/batch',
+    body: { items: Array.from({ length: count }, (_, i) => ({ op: 'mismatch', input: { swr: 1 + i / 1000 } })) },
+  });
+
+  it('pipes a few items as NDJSON lines into curl', () => {
+    const text = curlCommand('http://h', batch(2), null);
+    expect(text).toContain(`printf '%s\\n' '{"op":"mismatch","input":{"swr":1}}' '{"op":"mismatch","input":{"swr":1.001}}' |`);
+    expect(text).toContain("-H 'Content-Type: application/x-ndjson'");
+    expect(text).toContain('--data-binary @-');
+  });
+
+  it('names a file for a large batch instead of holding thousands of items', () => {
+    const text = curlCommand('http://h', batch(5000), null);
+    expect(text).toContain('--data-binary @batch.ndjson');
+    expect(text).toContain('holds the 5,000 items');
+    expect(text.length).toBeLessThan(500);
+  });
+});
+
+describe('the metres/feet switch', () => {
+  it('converts lengths and losses per 100 m and back with the international foot (0.3048 m)', () => {
+    expect(convertLength(12, 'metric', 'imperial')).toBe(39.3701);
+    expect(convertLength(100, 'imperial', 'metric')).toBe(30.48);
+    expect(convertLossPer100(2, 'metric', 'imperial')).toBe(0.6096);
+    expect(convertLossPer100(0.6096, 'imperial', 'metric')).toBe(2);
+    expect(convertLength(12, 'metric', 'metric')).toBe(12);
   });
 });

@@ -46,11 +46,27 @@ export function requestUrl(origin: string, request: TryRequest): string {
  */
 export function curlCommand(origin: string, request: TryRequest, key: string | null): string {
   const auth = key ? shellQuote(`Authorization: Bearer ${key}`) : '"Authorization: Bearer $GAMMALINE_KEY"';
+  if (request.endpoint === 'batch') return batchCurl(origin, request.body as { items: unknown[] }, auth);
   const lines = [`curl -sS ${request.method === 'GET' ? '' : '-X POST '}${shellQuote(requestUrl(origin, request))}`, `  -H ${auth}`];
   if (request.method === 'POST') {
     lines.push(`  -H 'Content-Type: application/json'`, `  -d ${shellQuote(JSON.stringify(request.body))}`);
   }
   return lines.join(' \\\n');
+}
+
+/** Above this many characters of NDJSON the command names a file instead of holding the items. */
+export const INLINE_BATCH_CHARS = 2000;
+export const BATCH_FILE_NAME = 'batch.ndjson';
+
+/** A batch as the console sends it: NDJSON, one item per line, read back line by line. */
+function batchCurl(origin: string, body: { items: unknown[] }, auth: string): string {
+  const lines = body.items.map((item) => JSON.stringify(item));
+  const post = [`curl -sS -X POST ${shellQuote(`${origin}/api/v1/batch`)}`, `  -H ${auth}`, `  -H 'Content-Type: application/x-ndjson'`];
+  if (lines.join('\n').length <= INLINE_BATCH_CHARS) {
+    return [`printf '%s\\n' ${lines.map(shellQuote).join(' ')} |`, ...post, '  --data-binary @-'].join(' \\\n');
+  }
+  const count = lines.length.toLocaleString('en');
+  return [`# ${BATCH_FILE_NAME} holds the ${count} items, one per line (save it with the button below)`, [...post, `  --data-binary @${BATCH_FILE_NAME}`].join(' \\\n')].join('\n');
 }
 
 /** Zod issues as lines a person can act on: "lengthM: give the line length…". */
@@ -60,3 +76,23 @@ export function issueLines(issues: readonly { path: readonly PropertyKey[]; mess
 
 /** Length and loss units of a line form: the API takes lengthM/lossDbPer100m or lengthFt/lossDbPer100ft. */
 export type Units = 'metric' | 'imperial';
+
+export const UNIT_CHOICES: readonly { value: Units; label: string }[] = [
+  { value: 'metric', label: 'metres' },
+  { value: 'imperial', label: 'feet' },
+];
+
+/** Metres in one foot, exactly (the international foot). */
+const M_PER_FT = 0.3048;
+
+/** A length typed in one unit, in the other; six significant digits, as people would type it. */
+export function convertLength(value: number, from: Units, to: Units): number {
+  if (from === to) return value;
+  return Number((from === 'metric' ? value / M_PER_FT : value * M_PER_FT).toPrecision(6));
+}
+
+/** A loss per 100 m as per 100 ft, or back: 100 ft is 30.48 m, so it carries 0.3048 of the loss. */
+export function convertLossPer100(value: number, from: Units, to: Units): number {
+  if (from === to) return value;
+  return Number((from === 'metric' ? value * M_PER_FT : value / M_PER_FT).toPrecision(6));
+}
