@@ -46,6 +46,19 @@ const light: GlobalThemeOverrides = {
     cardColor: '#FFFFFF',
     modalColor: '#FFFFFF',
     popoverColor: '#FFFFFF',
+    // Help lines under fields and other quiet text: the library's grey is 4.2:1 on white.
+    textColor3: '#5C6664',
+  },
+  // Tags sit on a 12 % tint of their own colour, which takes the action colours under 4.5:1;
+  // their words use the pressed shade instead.
+  // "Nothing here yet" lines: the library draws them in its disabled grey (1.8:1).
+  Empty: { textColor: '#5C6664' },
+  Tag: {
+    textColorPrimary: '#0A5250',
+    textColorInfo: '#22546E',
+    textColorSuccess: '#23623D',
+    textColorWarning: '#84461B',
+    textColorError: '#8E2923',
   },
 };
 
@@ -78,6 +91,17 @@ const dark: GlobalThemeOverrides = {
     cardColor: '#132426',
     modalColor: '#172B2E',
     popoverColor: '#1A3033',
+    // The library's quiet text (38–52 % white) is under 4.5:1 on the night cards.
+    textColor3: 'rgba(255, 255, 255, 0.66)',
+  },
+  // As in the light theme, tags use the hover shade, which keeps 4.5:1 on their tint in dialogs too.
+  Empty: { textColor: 'rgba(255, 255, 255, 0.66)' },
+  Tag: {
+    textColorPrimary: '#62C4BA',
+    textColorInfo: '#86C1E0',
+    textColorSuccess: '#78CB9A',
+    textColorWarning: '#EDB887',
+    textColorError: '#EE8F86',
   },
 };
 
@@ -85,7 +109,7 @@ export function themeOverridesFor(mode: ThemeMode): GlobalThemeOverrides {
   return mode === 'dark' ? dark : light;
 }
 
-/** Colours the shell's own CSS uses (header rule, muted text), per theme. */
+/** Colours the shell's own CSS uses (header rule, muted text, the focus ring), per theme. */
 export function shellColoursFor(mode: ThemeMode): Record<string, string> {
   return mode === 'dark'
     ? {
@@ -94,6 +118,7 @@ export function shellColoursFor(mode: ThemeMode): Record<string, string> {
         '--gl-border': '#24393C',
         '--gl-muted': '#9DB3B1',
         '--gl-current': 'rgba(70, 179, 168, 0.16)',
+        '--gl-focus': brand.copperLight,
       }
     : {
         '--gl-accent': brand.copper,
@@ -101,5 +126,6 @@ export function shellColoursFor(mode: ThemeMode): Record<string, string> {
         '--gl-border': '#E2DDD2',
         '--gl-muted': '#5C6664',
         '--gl-current': 'rgba(14, 107, 104, 0.10)',
+        '--gl-focus': brand.copper,
       };
 }
