@@ -2,6 +2,7 @@ import { cableLossDbPer100m, type CableType } from './cables.ts';
 import { abs, div, type Complex } from './complex.ts';
 import { DB_PER_NEPER, SPEED_OF_LIGHT_M_PER_S } from './constants.ts';
 import { RfInputError } from './errors.ts';
+import { goldenMax } from './golden-section.ts';
 import type { ReflectionDetail } from './reflection.ts';
 import {
   requireComplex,
@@ -313,34 +314,6 @@ function envelopeAt(sol: SectionSolution, gammaLMag: number, gammaLArg: number, 
 }
 
 const SAMPLES_PER_WINDOW = 33;
-const INV_PHI = (Math.sqrt(5) - 1) / 2;
-
-/** Golden-section search for a maximum of f on [lo, hi]; the bracket comes from sampling, so f is unimodal on it. */
-function goldenMax(f: (d: number) => number, lo: number, hi: number, tol: number): { at: number; value: number } {
-  let a = lo;
-  let b = hi;
-  let c = b - INV_PHI * (b - a);
-  let d = a + INV_PHI * (b - a);
-  let fc = f(c);
-  let fd = f(d);
-  while (b - a > tol) {
-    if (fc >= fd) {
-      b = d;
-      d = c;
-      fd = fc;
-      c = b - INV_PHI * (b - a);
-      fc = f(c);
-    } else {
-      a = c;
-      c = d;
-      fc = fd;
-      d = a + INV_PHI * (b - a);
-      fd = f(d);
-    }
-  }
-  const at = (a + b) / 2;
-  return { at, value: f(at) };
-}
 
 /**
  * Maximum of f over [0, lengthM]. The upper envelope of a standing wave on a uniform line is convex,

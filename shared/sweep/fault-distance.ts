@@ -2,6 +2,7 @@ import FFT from 'fft.js';
 import type { Complex } from '../rf/complex.ts';
 import { SPEED_OF_LIGHT_M_PER_S } from '../rf/constants.ts';
 import { RfInputError } from '../rf/errors.ts';
+import { goldenMax } from '../rf/golden-section.ts';
 import { reflectionAgainst, type SweepPointInput } from './points.ts';
 
 // Frequency-domain reflectometry in band-pass mode: the reflection measured over a band of evenly
@@ -300,33 +301,4 @@ export function faultDistance(samples: readonly ReflectionSample[], options: Fau
     points,
     peaks,
   };
-}
-
-const INV_PHI = (Math.sqrt(5) - 1) / 2;
-
-/** Golden-section search for the maximum of a unimodal f on [lo, hi]. */
-function goldenMax(f: (x: number) => number, lo: number, hi: number, tol: number): { at: number; value: number } {
-  let a = lo;
-  let b = hi;
-  let c = b - INV_PHI * (b - a);
-  let d = a + INV_PHI * (b - a);
-  let fc = f(c);
-  let fd = f(d);
-  while (b - a > tol) {
-    if (fc > fd) {
-      b = d;
-      d = c;
-      fd = fc;
-      c = b - INV_PHI * (b - a);
-      fc = f(c);
-    } else {
-      a = c;
-      c = d;
-      fc = fd;
-      d = a + INV_PHI * (b - a);
-      fd = f(d);
-    }
-  }
-  const at = (a + b) / 2;
-  return { at, value: f(at) };
 }

@@ -3,7 +3,7 @@ import { createRequire } from 'node:module';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { AxeResults } from 'axe-core';
 import type { Page } from 'playwright-core';
-import { baseUrl, DEMO_ADMIN, LAPTOP, openBrowser, serverRunning, signIn, type Browser } from './support.ts';
+import { baseUrl, DEMO_ADMIN, LAPTOP, openBrowser, serverRunning, signIn, storeLineSweep, type Browser } from './support.ts';
 
 /**
  * axe-core's own bundle, evaluated through the browser's debugging protocol: the console's
@@ -98,16 +98,7 @@ for (const theme of ['light', 'dark'] as const) {
       }
 
       // A sweep of 20 m of line ending in 100 Ω, so that distance to fault has a peak to list.
-      const id = await page.evaluate(async () => {
-        const { csrfToken } = await (await fetch('/api/v1/session')).json();
-        const points = Array.from({ length: 64 }, (_, i) => {
-          const f = (i + 1) * 1e6;
-          const phase = (-2 * 2 * Math.PI * f * 20) / (299_792_458 * 0.66);
-          return { frequencyHz: f, reflection: { re: Math.cos(phase) / 3, im: Math.sin(phase) / 3 } };
-        });
-        const res = await fetch('/api/v1/sweeps', { method: 'POST', headers: { 'content-type': 'application/json', 'x-csrf-token': csrfToken }, body: JSON.stringify({ name: 'Audit line', points }) });
-        return (await res.json()).id as string;
-      });
+      const id = await storeLineSweep(page, 'Audit line');
       await visit(page, `/sweeps/${id}`, theme);
       await page.locator('.sweep-charts canvas').first().waitFor();
       findings.push(...(await audit(page, '/sweeps/:id')));

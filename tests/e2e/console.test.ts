@@ -1,6 +1,6 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import path from 'node:path';
-import { apiCall, baseUrl, fixtures, openBrowser, serverRunning, signIn, snapshot, type Browser } from './support.ts';
+import { apiCall, baseUrl, fixtures, openBrowser, serverRunning, signIn, snapshot, storeLineSweep, type Browser } from './support.ts';
 
 describe.skipIf(!serverRunning)('the console in Chromium, against the server npm start runs', () => {
   let browser: Browser;
@@ -114,18 +114,7 @@ describe.skipIf(!serverRunning)('the console in Chromium, against the server npm
   it('finds a reflection along a line on the sweep page and judges the sweep again by a mask', async () => {
     const { page } = browser;
     await page.goto(`${baseUrl}/sweeps`);
-    // A sweep of 20 m of line (VF 0.66) ending in 100 Ω on 50 Ω: Γ = (1/3)·e^(−j2βl), β = 2πf/(c·VF)
-    // (lossless line, textbook); 64 points, 1 to 64 MHz.
-    const id = await page.evaluate(async () => {
-      const { csrfToken } = await (await fetch('/api/v1/session')).json();
-      const points = Array.from({ length: 64 }, (_, i) => {
-        const f = (i + 1) * 1e6;
-        const phase = (-2 * 2 * Math.PI * f * 20) / (299_792_458 * 0.66);
-        return { frequencyHz: f, reflection: { re: Math.cos(phase) / 3, im: Math.sin(phase) / 3 } };
-      });
-      const res = await fetch('/api/v1/sweeps', { method: 'POST', headers: { 'content-type': 'application/json', 'x-csrf-token': csrfToken }, body: JSON.stringify({ name: 'Line with a far end of 100 ohm', points }) });
-      return (await res.json()).id as string;
-    });
+    const id = await storeLineSweep(page, 'Line with a far end of 100 ohm');
     await page.goto(`${baseUrl}/sweeps/${id}`);
     const panel = page.getByTestId('fault-distance');
     await panel.locator('[data-choice="velocityFactor"]').click();

@@ -69,6 +69,24 @@ export async function snapshot(page: Page, name: string): Promise<void> {
 }
 
 /** The API called directly, as an integrator's program would. */
+/**
+ * Stores, as the signed-in member of `page`, a sweep of 20 m of line (VF 0.66) ending in 100 Ω on
+ * 50 Ω: Γ = (1/3)·e^(−j2βl), β = 2πf/(c·VF) (lossless line, textbook); 64 points, 1 to 64 MHz, so
+ * distance to fault has one reflection to find, at 20 m. Returns the sweep's id.
+ */
+export async function storeLineSweep(page: Page, name: string): Promise<string> {
+  return page.evaluate(async (sweepName) => {
+    const { csrfToken } = await (await fetch('/api/v1/session')).json();
+    const points = Array.from({ length: 64 }, (_, i) => {
+      const f = (i + 1) * 1e6;
+      const phase = (-2 * 2 * Math.PI * f * 20) / (299_792_458 * 0.66);
+      return { frequencyHz: f, reflection: { re: Math.cos(phase) / 3, im: Math.sin(phase) / 3 } };
+    });
+    const res = await fetch('/api/v1/sweeps', { method: 'POST', headers: { 'content-type': 'application/json', 'x-csrf-token': csrfToken }, body: JSON.stringify({ name: sweepName, points }) });
+    return (await res.json()).id as string;
+  }, name);
+}
+
 export async function apiCall(pathname: string, init: { method?: string; key?: string; body?: unknown } = {}): Promise<{ status: number; body: unknown }> {
   const headers: Record<string, string> = { accept: 'application/json' };
   if (init.key) headers.authorization = `Bearer ${init.key}`;
