@@ -13,3 +13,16 @@ export function chartInk(mode: ThemeMode): { text: string; muted: string; grid: 
     ? { text: '#E6EEED', muted: '#9DB3B1', grid: '#24393C', background: 'transparent' }
     : { text: '#1F2A29', muted: '#5C6664', grid: '#E2DDD2', background: 'transparent' };
 }
+
+/**
+ * What every measurement chart of the console shares: series colours, no animation (an animated line
+ * is half-drawn in screenshots and adds nothing to a measurement), the console's font, and the axis
+ * style, per theme.
+ */
+export function chartFrame(mode: ThemeMode) {
+  const ink = chartInk(mode);
+  return {
+    common: { color: seriesColours(mode), animation: false, textStyle: { fontFamily: 'v-sans, system-ui, sans-serif', color: ink.text } },
+    axis: { axisLine: { lineStyle: { color: ink.grid } }, axisLabel: { color: ink.muted }, splitLine: { lineStyle: { color: ink.grid } } },
+  };
+}
