@@ -4,7 +4,7 @@ import { createKey } from '../server/api/v1/keys/keys.service.ts';
 import { CLI_ACTOR } from '../server/api/v1/audit/audit.repository.ts';
 import { openDatabase } from '../server/db/client.ts';
 import { migrateDatabase } from '../server/db/migrate.ts';
-import { seedDemo } from '../server/db/seed.ts';
+import { seedDemo } from '../server/demo/seed.ts';
 
 /** Migrates and seeds the throwaway database and returns a key whose quota no run can spend. */
 export async function prepareBenchKey(url: string): Promise<string> {

@@ -126,5 +126,6 @@ for (const [i, route] of routes.entries()) {
       `${Math.round(sizes[i]!)} bytes/answer, ${median(ratios).toFixed(3)} × ${routes[0]!.path}`,
   );
 }
+await app.close();
 await database.close();
 process.exit(0);

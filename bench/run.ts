@@ -16,6 +16,8 @@ import { lineFromLossSpec, lineInputImpedance } from '../shared/rf/line.ts';
 import { analyseSweep, parseTouchstone } from '../shared/sweep/index.ts';
 import { median, prepareBenchKey } from './common.ts';
 import { pacedLoad } from './paced.ts';
+import { p6 } from './sweeps-load.ts';
+import { p7 } from './overload.ts';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const RUNS = Number(process.env.BENCH_RUNS ?? 5);
@@ -368,21 +370,23 @@ const url = process.env.DATABASE_URL;
 if (!url) throw new Error('Run the benchmark with `npm run bench` (it provides DATABASE_URL).');
 const loadBefore = os.loadavg()[0]!;
 // BENCH_ONLY=P2,P3 runs just those targets (while working on one); results.json then holds only them.
-const only = new Set((process.env.BENCH_ONLY ?? 'P1,P2,P3,P4,P5').split(',').map((id) => id.trim().toUpperCase()));
+const only = new Set((process.env.BENCH_ONLY ?? 'P1,P2,P3,P4,P5,P6,P7').split(',').map((id) => id.trim().toUpperCase()));
 const key = await prepareBenchKey(url);
 const targets: Target[] = [];
 if (only.has('P3')) targets.push(p3());
 if (only.has('P4')) targets.push(p4());
-if (only.has('P1') || only.has('P2') || only.has('P5')) {
+if (only.has('P1') || only.has('P2') || only.has('P5') || only.has('P6')) {
   const { child, base } = await startServer();
   try {
     if (only.has('P1')) targets.push(await p1(base, key));
     if (only.has('P2')) targets.push(await p2(base, key));
     if (only.has('P5')) targets.push(await p5(base, key));
+    if (only.has('P6')) targets.push(await p6(base, key, url));
   } finally {
     child.kill('SIGTERM');
   }
 }
+if (only.has('P7')) targets.push(await p7(url, key));
 targets.sort((a, b) => a.id.localeCompare(b.id));
 
 // Other work on the machine skews every figure; the 1-minute load average before and after says how much.

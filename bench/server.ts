@@ -52,4 +52,4 @@ server.listen(0, '127.0.0.1', () => {
   const address = server.address();
   if (address && typeof address === 'object') console.log(JSON.stringify({ port: address.port }));
 });
-process.on('SIGTERM', () => server.close(() => void database.close().then(() => process.exit(0))));
+process.on('SIGTERM', () => server.close(() => void app.close().then(() => database.close()).then(() => process.exit(0))));

@@ -8,14 +8,20 @@ import { openDatabase, type Database } from '../server/db/client.ts';
 import { apiKeys, organisations } from '../server/db/schema.ts';
 import { CLI_ACTOR } from '../server/api/v1/audit/audit.repository.ts';
 import { listKeys } from '../server/api/v1/keys/keys.repository.ts';
-import { createKey, findMemberByEmail, revokeKey } from '../server/api/v1/keys/keys.service.ts';
+import { AllowedOriginsSchema } from '../server/api/v1/keys/keys.schemas.ts';
+import { createKey, revokeKey, updateKey } from '../server/api/v1/keys/keys.service.ts';
+import { findMemberByEmail } from '../server/api/v1/members/members.repository.ts';
 import { ApiError } from '../server/http/problem.ts';
 import { utcDay } from '../server/quota/day.ts';
 
 const USAGE = `Usage:
-  npm run keys -- create --email <member> --name <name> [--note <text>] [--daily-quota <units>] [--burst <per-minute>] [--expires <ISO 8601 instant>]
+  npm run keys -- create --email <member> --name <name> [--note <text>] [--daily-quota <units>] [--burst <per-minute>] [--expires <ISO 8601 instant>] [--origin <origin>]...
+  npm run keys -- origins <id> [--origin <origin>]...
   npm run keys -- list [--json]
   npm run keys -- revoke <id>
+
+--origin (repeatable) lets web pages of that exact origin, e.g. https://log.example.org, use the key from a
+browser; \`origins <id>\` replaces a key's list (without --origin: no page may use it any more).
 
 The database is DATABASE_URL, or the one \`npm start\` recorded in .data/database-url.
 With \`npm start\` running, it prints the URL it uses (postgres://postgres@127.0.0.1:<port>/gammaline).`;
@@ -30,6 +36,27 @@ function databaseUrl(): string {
   const recorded = process.env.DATABASE_URL_FILE ?? path.join(root, '.data', 'database-url');
   if (existsSync(recorded)) return readFileSync(recorded, 'utf8').trim();
   throw new UsageError('Set DATABASE_URL to the PostgreSQL database of the running Gammaline (npm start prints it), e.g.\n  DATABASE_URL=postgres://postgres@127.0.0.1:54321/gammaline npm run keys -- list');
+}
+
+/** The `--origin` values, checked like the API checks `allowedOrigins`. */
+function origins(values: string[] | undefined): string[] {
+  const parsed = AllowedOriginsSchema.safeParse(values ?? []);
+  if (parsed.success) return parsed.data;
+  const issue = parsed.error.issues[0]!;
+  const which = typeof issue.path[0] === 'number' ? ` "${values![issue.path[0]]}"` : '';
+  throw new UsageError(`--origin${which}: ${issue.message}.`);
+}
+
+function keyIdArgument(id: string | undefined): string {
+  if (!id) throw new UsageError('Give the key id (see `npm run keys -- list`).');
+  if (!/^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i.test(id)) throw new UsageError(`"${id}" is not a key id; ids are UUIDs as shown by \`npm run keys -- list\`.`);
+  return id;
+}
+
+async function organisationOfKey(database: Database, id: string): Promise<string> {
+  const [row] = await database.db.select({ organisationId: apiKeys.organisationId }).from(apiKeys).where(eq(apiKeys.id, id));
+  if (!row) throw new UsageError(`No key with id ${id}.`);
+  return row.organisationId;
 }
 
 function positiveInt(value: string | undefined, flag: string): number | undefined {
@@ -49,10 +76,12 @@ async function create(database: Database, args: string[]): Promise<void> {
       'daily-quota': { type: 'string' },
       burst: { type: 'string' },
       expires: { type: 'string' },
+      origin: { type: 'string', multiple: true },
     },
     strict: true,
   });
   if (!values.email || !values.name?.trim()) throw new UsageError('create needs --email <member> and --name <name>.');
+  const allowedOrigins = origins(values.origin);
   let expiresAt: Date | undefined;
   if (values.expires !== undefined) {
     expiresAt = new Date(values.expires);
@@ -70,12 +99,14 @@ async function create(database: Database, args: string[]): Promise<void> {
       expiresAt,
       dailyQuota: positiveInt(values['daily-quota'], '--daily-quota'),
       burstPerMinute: positiveInt(values.burst, '--burst'),
+      allowedOrigins,
       actor: CLI_ACTOR,
     },
     new Date(),
   );
   const k = created.key;
   console.log(`Key "${k.name}" for ${k.owner.email} (id ${k.id}): ${k.dailyQuota} units a day, ${k.burstPerMinute} requests a minute${k.expiresAt ? `, expires ${k.expiresAt}` : ''}.`);
+  if (k.allowedOrigins.length > 0) console.log(`Web pages of ${k.allowedOrigins.join(', ')} may use it from a browser.`);
   console.log('Copy it now; it is not shown again:');
   console.log(created.secret);
 }
@@ -104,18 +135,30 @@ async function list(database: Database, args: string[]): Promise<void> {
   for (const row of table) console.log(row.map((cell, i) => cell.padEnd(widths[i]!)).join('  ').trimEnd());
 }
 
+async function setOrigins(database: Database, args: string[]): Promise<void> {
+  const { values, positionals } = parseArgs({ args, options: { origin: { type: 'string', multiple: true } }, allowPositionals: true, strict: true });
+  if (positionals.length > 1) throw new UsageError('origins takes one key id, then any number of --origin <origin>.');
+  const id = keyIdArgument(positionals[0]);
+  const allowedOrigins = origins(values.origin);
+  const organisationId = await organisationOfKey(database, id);
+  const key = await updateKey(database.db, { organisationId, keyId: id, actor: CLI_ACTOR, changes: { allowedOrigins } }, new Date());
+  console.log(
+    key.allowedOrigins.length > 0
+      ? `Key ${key.id} ("${key.name}" of ${key.owner.email}) now serves web pages of ${key.allowedOrigins.join(', ')}, on every server at once.`
+      : `Key ${key.id} ("${key.name}" of ${key.owner.email}) now serves no web page; requests without an Origin header still work.`,
+  );
+}
+
 async function revoke(database: Database, args: string[]): Promise<void> {
-  const id = args[0];
-  if (!id || args.length > 1) throw new UsageError('revoke needs exactly one key id (see `npm run keys -- list`).');
-  if (!/^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i.test(id)) throw new UsageError(`"${id}" is not a key id; ids are UUIDs as shown by \`npm run keys -- list\`.`);
-  const [row] = await database.db.select({ organisationId: apiKeys.organisationId }).from(apiKeys).where(eq(apiKeys.id, id));
-  if (!row) throw new UsageError(`No key with id ${id}.`);
-  const key = await revokeKey(database.db, { organisationId: row.organisationId, keyId: id, actor: CLI_ACTOR }, new Date());
+  if (!args[0] || args.length > 1) throw new UsageError('revoke needs exactly one key id (see `npm run keys -- list`).');
+  const id = keyIdArgument(args[0]);
+  const organisationId = await organisationOfKey(database, id);
+  const key = await revokeKey(database.db, { organisationId, keyId: id, actor: CLI_ACTOR }, new Date());
   console.log(`Revoked key ${key.id} (${key.displayStart}…, "${key.name}" of ${key.owner.email}); it is refused from now on.`);
 }
 
 const [command, ...rest] = process.argv.slice(2);
-const commands: Record<string, (database: Database, args: string[]) => Promise<void>> = { create, list, revoke };
+const commands: Record<string, (database: Database, args: string[]) => Promise<void>> = { create, origins: setOrigins, list, revoke };
 const run = command ? commands[command] : undefined;
 if (!run) {
   console.error(command ? `Unknown command "${command}".\n\n${USAGE}` : USAGE);

@@ -19,7 +19,13 @@ import { MAX_SWEEP_UPLOAD_BYTES } from './api/v1/sweeps/sweeps.upload.ts';
 import { LOCAL_MODE_PATH_PREFIX } from './api/v1/mail/mail.routes.ts';
 import { openApiDocument, serveOpenApiDocument } from './openapi/document.ts';
 import { sessionMiddleware } from './auth/session.ts';
+import { startKeyServices, type KeyServices } from './quota/key-services.ts';
+import { Meter } from './quota/meter.ts';
 import { createLogOnlyMailer, type Mailer } from './mail/mailer.ts';
+import { AppMetrics } from './metrics/app-metrics.ts';
+import { startEventLoopDelay, type EventLoopDelay } from './metrics/event-loop-delay.ts';
+import { metricsRoute } from './http/metrics-route.ts';
+import { createShedding, type Shedding } from './http/shedding.ts';
 
 export interface AppDependencies {
   database: Database;
@@ -35,6 +41,8 @@ export interface AppDependencies {
    * security headers, body limits, JSON bodies), before the API (the benchmark's same-server reference).
    */
   beforeApi?: (app: Express) => void;
+  /** The event-loop delay reading that overload shedding watches; tests pass one they control. */
+  eventLoopDelay?: EventLoopDelay;
 }
 
 /** Routes that parse their own body (see server/api/v1/batch). */
@@ -42,16 +50,47 @@ const OWN_BODY_PATH = /^\/api\/v1\/batch\/?$/i;
 /** The one route that takes multipart uploads (see server/api/v1/sweeps). */
 const UPLOAD_PATH = /^\/api\/v1\/sweeps\/?$/i;
 
+/** The Express app with what it started alongside: its key services, and how to stop them. */
+export interface GammalineApp extends Express {
+  /** The verified-key cache, change listener, quota leases and last-used writes this app started. */
+  readonly keyServices: KeyServices;
+  /** This app's Prometheus registry and counters, served at GET /metrics. */
+  readonly metrics: AppMetrics;
+  /**
+   * Stops what the app started, after its last response: gives unspent quota units back, writes buffered
+   * usage and last-used times, closes the key-change listener, stops the event-loop monitor. Idempotent. The database handle, the
+   * mailer and any server listening with the app stay the caller's to close (afterwards).
+   */
+  close(): Promise<void>;
+}
+
 /** Builds the whole HTTP application from its dependencies; listening is the caller's business. */
-export function createApp(deps: AppDependencies): Express {
+export function createApp(deps: AppDependencies): GammalineApp {
   const logger = deps.logger ?? pino({ level: deps.config.logLevel });
-  const ctx: AppContext = {
-    database: deps.database,
-    config: deps.config,
-    clock: deps.clock ?? systemClock,
-    logger,
-    mailer: deps.mailer ?? createLogOnlyMailer(logger),
+  const clock = deps.clock ?? systemClock;
+  // Shedding counts requests under way for the metrics, and the metrics count what it sheds.
+  let shedding: Shedding | undefined;
+  const delay = deps.eventLoopDelay ?? startEventLoopDelay();
+  const metrics = new AppMetrics({ pool: deps.database.pool, inFlight: () => shedding?.inFlight() ?? 0, eventLoopDelayMs: delay.recentMs });
+  shedding = createShedding({ ...deps.config.shed, delay, metrics });
+  const keyServices = startKeyServices({ database: deps.database, logger, clock, metrics });
+  const stop = () => {
+    if (!deps.eventLoopDelay) delay.stop();
+    return keyServices.stop();
   };
+  try {
+    const base = { database: deps.database, config: deps.config, clock, logger, mailer: deps.mailer ?? createLogOnlyMailer(logger), keyServices, metrics };
+    const ctx: AppContext = { ...base, meter: new Meter(base) };
+    let closing: Promise<void> | undefined;
+    return Object.assign(buildApp(ctx, deps, shedding), { keyServices, metrics, close: () => (closing ??= stop()) });
+  } catch (err) {
+    void stop();
+    throw err;
+  }
+}
+
+function buildApp(ctx: AppContext, deps: AppDependencies, shedding: Shedding): Express {
+  const logger = ctx.logger;
   const app = express();
   app.disable('x-powered-by');
   // ETags only cost a hash of every body here: calculation answers are POST responses, which no cache
@@ -61,7 +100,7 @@ export function createApp(deps: AppDependencies): Express {
   if (deps.config.trustProxy > 0) app.set('trust proxy', deps.config.trustProxy);
   deps.first?.(app);
 
-  app.use(requestLog(app, logger));
+  app.use(requestLog(app, logger, ctx.metrics));
   // Local mode is plain HTTP on loopback (or a LAN address): forcing HTTPS there would break the console.
   const local = deps.config.mode === 'local';
   app.use(
@@ -70,6 +109,9 @@ export function createApp(deps: AppDependencies): Express {
       contentSecurityPolicy: { directives: { upgradeInsecureRequests: local ? null : [] } },
     }),
   );
+  // Ahead of body limits and parsing: a shed request costs no more than its headers.
+  app.use(shedding.middleware);
+  app.get('/metrics', metricsRoute(ctx.metrics!, deps.config.metricsToken));
   const bodyLimit = byteSize(deps.config.bodyLimit);
   const batchLimit = byteSize(BATCH_JSON_LIMIT);
   app.use(

@@ -22,6 +22,12 @@ export const EnvSchema = z.object({
   TRUST_PROXY: z.coerce.number().int().min(0).max(10).default(0),
   /** Longest one SQL statement may run before PostgreSQL cancels it (the request then answers 503); 0 = no limit. Migrations never have one. */
   DATABASE_STATEMENT_TIMEOUT_MS: z.coerce.number().int().min(0).max(3_600_000).default(15_000),
+  /** Lets GET /metrics answer callers other than loopback that send `Authorization: Bearer <token>`. */
+  METRICS_TOKEN: z.string().min(16, 'METRICS_TOKEN must be at least 16 characters; generate one with `openssl rand -hex 24`').optional(),
+  /** New /api/v1 requests are answered 503 while the event loop runs later than this (ms); 0 = not watched. */
+  SHED_EVENT_LOOP_DELAY_MS: z.coerce.number().int().min(0).max(60_000).default(50),
+  /** New /api/v1 requests are answered 503 while this many are under way; 0 = no bound. */
+  SHED_MAX_IN_FLIGHT: z.coerce.number().int().min(0).max(1_000_000).default(256),
 });
 
 /** Used only in local mode; production refuses to start without its own SESSION_SECRET. */
@@ -50,6 +56,10 @@ export interface AppConfig {
   trustProxy: number;
   /** PostgreSQL's statement_timeout for the serving pool (ms); 0 = none. */
   statementTimeoutMs: number;
+  /** Bearer token that opens /metrics to callers other than loopback; undefined = loopback only. */
+  metricsToken?: string;
+  /** Overload shedding bounds (0 = off): the event loop's delay (ms) and API requests under way. */
+  shed: { eventLoopDelayMs: number; maxInFlight: number };
 }
 
 export const APP_VERSION = '0.2.0';
@@ -83,10 +93,15 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): AppConfig {
     mailFrom: e.MAIL_FROM,
     trustProxy: e.TRUST_PROXY,
     statementTimeoutMs: e.DATABASE_STATEMENT_TIMEOUT_MS,
+    metricsToken: e.METRICS_TOKEN,
+    shed: { eventLoopDelayMs: e.SHED_EVENT_LOOP_DELAY_MS, maxInFlight: e.SHED_MAX_IN_FLIGHT },
   };
 }
 
-/** A config for tests and tools that build an app without reading the environment. */
+/**
+ * A config for tests and tools that build an app without reading the environment. Shedding is off:
+ * in-process tests run their client in the server's event loop, so its turns would count as delay.
+ */
 export function testConfig(overrides: Partial<AppConfig> = {}): AppConfig {
   return {
     mode: 'local',
@@ -103,6 +118,7 @@ export function testConfig(overrides: Partial<AppConfig> = {}): AppConfig {
     mailFrom: 'Gammaline <no-reply@gammaline.example>',
     trustProxy: 0,
     statementTimeoutMs: 15_000,
+    shed: { eventLoopDelayMs: 0, maxInFlight: 0 },
     ...overrides,
   };
 }

@@ -3,13 +3,12 @@ import type { IncomingMessage, ServerResponse } from 'node:http';
 import { pino, type Logger } from 'pino';
 import { createApp } from './app.ts';
 import { createAppServer } from './http/app-server.ts';
-import { stopKeyServices } from './auth/key-services.ts';
 import { loadConfig, type AppConfig } from './config.ts';
 import { openDatabase, type Database } from './db/client.ts';
 import { isDatabaseUnavailable } from './db/unavailable.ts';
 import { ApiError, PROBLEM_CONTENT_TYPE } from './http/problem.ts';
 import { migrateDatabase } from './db/migrate.ts';
-import { seedDemo } from './db/seed.ts';
+import { seedDemo } from './demo/seed.ts';
 import { startMailCapture, type MailCapture } from './mail/capture.ts';
 import { createMailer } from './mail/mailer.ts';
 import { pruneRateLimitHits } from './quota/pg-rate-limit-store.ts';
@@ -131,8 +130,9 @@ async function runServer(config: AppConfig, logger: Logger, options: { prepare: 
     const force = setTimeout(() => process.exit(1), STOP_GRACE_MS).unref();
     clearInterval(pruneTimer);
     server.close(async () => {
-      // After the last response: write pending "last used" times, close the key-change listener.
-      await stopKeyServices(database).catch((err: unknown) => logger.warn({ err }, 'could not flush key usage on shutdown'));
+      // After the last response: give unspent quota units back, write pending usage and "last used"
+      // times, close the key-change listener.
+      await app.close().catch((err: unknown) => logger.warn({ err }, 'could not flush key usage on shutdown'));
       mailer.close();
       await capture?.close().catch(() => {});
       await database.close().catch(() => {});

@@ -4,6 +4,15 @@ import path from 'node:path';
 import { findPostgresBin } from './bootstrap.mjs';
 import { capture, isRoot, runOrThrow, say } from './run.mjs';
 
+/** Whether nothing listens on `port` of 127.0.0.1 right now (a listener on 0.0.0.0 counts as taken). */
+export function isPortFree(port) {
+  return new Promise((resolve) => {
+    const server = net.createServer();
+    server.once('error', () => resolve(false));
+    server.listen(port, '127.0.0.1', () => server.close(() => resolve(true)));
+  });
+}
+
 /** Finds a free TCP port on loopback (never assumes the system's 5432 is ours). */
 export function freePort() {
   return new Promise((resolve, reject) => {
@@ -42,10 +51,23 @@ function runningPort(dataDir) {
 }
 
 /**
- * Starts (initialising if needed) a PostgreSQL cluster in `dataDir` on 127.0.0.1 and a free port.
- * `throwaway` turns durability off, for test runs only. Returns the port and a stop function.
+ * The port to start on: `preferredPort` while it is free (so clients that remember it keep working),
+ * otherwise any free one, said out loud because those clients then need the new URL.
  */
-export async function startCluster({ dataDir, throwaway = false }) {
+async function choosePort(preferredPort) {
+  if (preferredPort === undefined) return freePort();
+  if (await isPortFree(preferredPort)) return preferredPort;
+  const port = await freePort();
+  say(`127.0.0.1:${preferredPort}, PostgreSQL's port last time, is taken by another program; using ${port} instead`);
+  return port;
+}
+
+/**
+ * Starts (initialising if needed) a PostgreSQL cluster in `dataDir` on 127.0.0.1, on `preferredPort`
+ * when given and free, otherwise on a free port. `throwaway` turns durability off, for test runs only.
+ * Returns the port and a stop function.
+ */
+export async function startCluster({ dataDir, throwaway = false, preferredPort }) {
   const pgBin = findPostgresBin();
   if (!pgBin) throw new Error('PostgreSQL server binaries were not found under /usr/lib/postgresql.');
   mkdirSync(dataDir, { recursive: true });
@@ -70,7 +92,7 @@ export async function startCluster({ dataDir, throwaway = false }) {
     say(`reusing the PostgreSQL cluster already running on 127.0.0.1:${port}`);
     return { port, stop: () => stopCluster(pgBin, dataDir) };
   }
-  const port = await freePort();
+  const port = await choosePort(preferredPort);
   const options = [`-h 127.0.0.1`, `-p ${port}`, `-k ${dataDir}`];
   if (throwaway) options.push('-c fsync=off', '-c synchronous_commit=off', '-c full_page_writes=off');
   asClusterOwner(`${pgBin}/pg_ctl`, ['-D', dataDir, '-l', path.join(dataDir, 'server.log'), '-w', '-t', '60', '-o', options.join(' '), 'start'], {

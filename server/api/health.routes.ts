@@ -1,11 +1,11 @@
 import { Router } from 'express';
-import { sql } from 'drizzle-orm';
 import { z } from '../zod.ts';
 import { registry, problemResponses } from '../openapi/registry.ts';
 import { publicAccess } from '../auth/openapi.ts';
 import { ApiError } from '../http/problem.ts';
 import type { AppContext } from '../context.ts';
 import { APP_VERSION } from '../config.ts';
+import { pingDatabase } from './health.repository.ts';
 
 const Health = z
   .object({
@@ -50,7 +50,7 @@ export function healthRouter(ctx: AppContext): Router {
   });
   router.get('/readyz', async (_req, res) => {
     try {
-      await ctx.database.db.execute(sql`select 1`);
+      await pingDatabase(ctx.database.db);
     } catch (err) {
       throw new ApiError('unavailable', 'The database is unreachable; retry shortly.', { headers: { 'Retry-After': '5' }, cause: err });
     }

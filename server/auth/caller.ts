@@ -1,17 +1,10 @@
-import { createHash } from 'node:crypto';
 import type { NextFunction, Request, RequestHandler, Response } from 'express';
-import { rateLimit, type RateLimitInfo } from 'express-rate-limit';
 import { eq } from 'drizzle-orm';
 import type { AppContext } from '../context.ts';
 import { organisations, users } from '../db/schema.ts';
+import { fromOwnPage, keyCors } from '../http/cors.ts';
 import { ApiError } from '../http/problem.ts';
-import { SECONDS_PER_DAY, secondsUntilUtcMidnight, utcDay } from '../quota/day.ts';
-import { PgRateLimitStore } from '../quota/pg-rate-limit-store.ts';
-import { recordConsoleUsage } from '../quota/quota.repository.ts';
-import { sendQuotaWarnings } from '../quota/warnings.ts';
-import type { MeterDecision } from '../quota/key-leases.ts';
 import { hashApiKey, looksLikeApiKey } from './api-key.ts';
-import { keyServicesFor, type KeyServices } from './key-services.ts';
 import { csrfSatisfied } from './session.ts';
 import { verifyApiKeyHash, type KeyVerification, type VerifiedKey } from './verify-key.ts';
 
@@ -24,8 +17,11 @@ export type Caller = {
   keyId?: string;
 };
 
-/** What the meter needs about the caller, loaded with it so the meter does not look it up again. */
-interface CallerLimits {
+/**
+ * The caller's limits as stored with the key or organisation, loaded with the caller so that the
+ * meter (server/quota/meter.ts) does not look them up again; only the meter applies them.
+ */
+export interface CallerLimits {
   burstPerMinute: number;
   key?: { id: string; name: string; displayStart: string; dailyQuota: number; ownerEmail: string };
 }
@@ -58,7 +54,7 @@ function unauthenticated(): ApiError {
  */
 async function verifyKey(ctx: AppContext, presented: string, now: Date): Promise<KeyVerification> {
   if (!looksLikeApiKey(presented)) return { outcome: 'malformed' };
-  const services = keyServicesFor(ctx.database, ctx.logger);
+  const services = ctx.keyServices;
   const hash = hashApiKey(presented);
   const usable = services.cacheUsable();
   if (usable) {
@@ -66,7 +62,7 @@ async function verifyKey(ctx: AppContext, presented: string, now: Date): Promise
     if (cached) return { outcome: 'valid', key: cached };
   }
   if (!usable) return verifyApiKeyHash(ctx.database.db, hash, now);
-  const verified = await verifyShared(ctx, services, hash, now);
+  const verified = await verifyShared(ctx, hash, now);
   // A shared lookup was judged at its first caller's time; a key that expired since is expired for this one.
   if (verified.outcome === 'valid' && verified.key.expiresAt && verified.key.expiresAt <= now) return { outcome: 'expired' };
   return verified;
@@ -77,7 +73,8 @@ async function verifyKey(ctx: AppContext, presented: string, now: Date): Promise
  * under the generation it started with (a change announced meanwhile discards it), an invalid one
  * dropping any cached entry.
  */
-function verifyShared(ctx: AppContext, services: KeyServices, hash: string, now: Date): Promise<KeyVerification> {
+function verifyShared(ctx: AppContext, hash: string, now: Date): Promise<KeyVerification> {
+  const services = ctx.keyServices;
   return services.cache.shared(hash, async () => {
     const generation = services.cache.generation;
     const verified = await verifyApiKeyHash(ctx.database.db, hash, now);
@@ -90,7 +87,7 @@ function verifyShared(ctx: AppContext, services: KeyServices, hash: string, now:
   });
 }
 
-async function callerFromKey(ctx: AppContext, req: Request, res: Response, header: string): Promise<Caller> {
+async function callerFromKey(ctx: AppContext, req: Request, res: Response, header: string): Promise<KeyCaller> {
   const match = BEARER_KEY.exec(header);
   if (!match?.[1]) throw unauthenticated();
   const now = ctx.clock.now();
@@ -101,7 +98,7 @@ async function callerFromKey(ctx: AppContext, req: Request, res: Response, heade
     throw unauthenticated();
   }
   const k = verified.key;
-  keyServicesFor(ctx.database, ctx.logger).lastUsed.touch(k.keyId, now);
+  ctx.keyServices.lastUsed.touch(k.keyId, now);
   return callerFromVerifiedKey(res, k);
 }
 
@@ -142,11 +139,14 @@ export function requireCaller(ctx: AppContext): RequestHandler {
     // A key verified moments ago is taken from the cache without a promise: the hot path of integrations.
     const cached = header !== undefined ? cachedCaller(ctx, res, header) : undefined;
     if (cached) {
-      res.locals.caller = cached;
-      next();
+      admitKeyCaller(req, res, next, cached);
       return;
     }
-    (header !== undefined ? callerFromKey(ctx, req, res, header) : callerFromSession(ctx, req, res)).then((caller) => {
+    if (header !== undefined) {
+      callerFromKey(ctx, req, res, header).then((made) => admitKeyCaller(req, res, next, made), next).catch(next);
+      return;
+    }
+    callerFromSession(ctx, req, res).then((caller) => {
       if (!caller) throw unauthenticated();
       res.locals.caller = caller;
       next();
@@ -154,32 +154,51 @@ export function requireCaller(ctx: AppContext): RequestHandler {
   };
 }
 
+/**
+ * A request made with a key goes on; one from another site's page (it carries `Origin`) only when the
+ * key allows that origin, and then with the CORS fields the page needs to read the answer. Console
+ * sessions never get those fields, so the console's cookie stays first-party.
+ */
+function admitKeyCaller(req: Request, res: Response, next: NextFunction, made: KeyCaller): void {
+  res.locals.caller = made.caller;
+  if (req.headers.origin === undefined || fromOwnPage(req)) next();
+  else (made.fromBrowser ??= keyCors(made.allowedOrigins))(req, res, next);
+}
+
 /** The caller of a Bearer key found in the verified-key cache, or undefined (then the full check runs). */
-function cachedCaller(ctx: AppContext, res: Response, header: string): Caller | undefined {
+function cachedCaller(ctx: AppContext, res: Response, header: string): KeyCaller | undefined {
   const match = BEARER_KEY.exec(header);
   const presented = match?.[1];
   if (!presented || !looksLikeApiKey(presented)) return undefined;
-  const services = keyServicesFor(ctx.database, ctx.logger);
+  const services = ctx.keyServices;
   if (!services.cacheUsable()) return undefined;
   const now = ctx.clock.now();
   const hash = hashApiKey(presented);
   const k = services.cache.get(hash, now);
   if (!k) return undefined;
   if (services.cache.isAging(hash)) {
-    verifyShared(ctx, services, hash, now).catch((err: unknown) => ctx.logger.warn({ err }, 'could not verify a cached key again ahead of its expiry'));
+    verifyShared(ctx, hash, now).catch((err: unknown) => ctx.logger.warn({ err }, 'could not verify a cached key again ahead of its expiry'));
   }
   services.lastUsed.touch(k.keyId, now);
   return callerFromVerifiedKey(res, k);
 }
 
+interface KeyCaller {
+  caller: Caller;
+  limits: CallerLimits;
+  allowedOrigins: ReadonlySet<string>;
+  /** The key's CORS middleware, made when a page first uses the key. */
+  fromBrowser?: RequestHandler;
+}
+
 /**
  * The caller and limits of a verified key, made once per verification: the key cache hands out the
- * same record until the key changes, so the hot path allocates nothing here. Both are frozen, as every
- * request of that key shares them.
+ * same record until the key changes, so the hot path allocates nothing here. Caller and limits are
+ * frozen, as every request of that key shares them.
  */
-const callersOfKeys = new WeakMap<VerifiedKey, { caller: Caller; limits: CallerLimits }>();
+const callersOfKeys = new WeakMap<VerifiedKey, KeyCaller>();
 
-function callerFromVerifiedKey(res: Response, k: VerifiedKey): Caller {
+function callerFromVerifiedKey(res: Response, k: VerifiedKey): KeyCaller {
   let made = callersOfKeys.get(k);
   if (!made) {
     made = {
@@ -188,11 +207,12 @@ function callerFromVerifiedKey(res: Response, k: VerifiedKey): Caller {
         burstPerMinute: k.burstPerMinute,
         key: Object.freeze({ id: k.keyId, name: k.name, displayStart: k.displayStart, dailyQuota: k.dailyQuota, ownerEmail: k.ownerEmail }),
       }),
+      allowedOrigins: k.allowedOrigins,
     };
     callersOfKeys.set(k, made);
   }
   res.locals.callerLimits = made.limits;
-  return made.caller;
+  return made;
 }
 
 /**
@@ -222,189 +242,4 @@ export function callerOf(res: Response): Caller {
   const caller = res.locals.caller;
   if (!caller) throw new Error('route is missing requireCaller/requireSession');
   return caller;
-}
-
-const BURST_WINDOW_MS = 60_000;
-
-/**
- * One burst limiter per app for console calls: every metered endpoint shares a member's per-minute
- * allowance. Key calls count their burst hits in the group-commit statement instead (meterKey).
- */
-const burstLimiters = new WeakMap<AppContext, RequestHandler>();
-
-function burstLimiter(ctx: AppContext): RequestHandler {
-  let limiter = burstLimiters.get(ctx);
-  if (limiter) return limiter;
-  limiter = rateLimit({
-    windowMs: BURST_WINDOW_MS,
-    limit: (_req, res) => (res.locals.callerLimits as CallerLimits).burstPerMinute,
-    keyGenerator: (_req, res) => {
-      const caller = res.locals.caller as Caller;
-      return caller.keyId ? `key:${caller.keyId}` : `member:${caller.userId}`;
-    },
-    identifier: 'burst',
-    standardHeaders: 'draft-8',
-    legacyHeaders: false,
-    store: new PgRateLimitStore(ctx.database.pool, 'burst:'),
-    handler: (req, _res, next) => {
-      const info = (req as Request & { rateLimit?: RateLimitInfo }).rateLimit;
-      const waitS = info?.resetTime ? Math.max(1, Math.ceil((info.resetTime.getTime() - Date.now()) / 1000)) : 60;
-      next(
-        new ApiError('tooManyRequests', `More than ${info?.limit ?? '?'} requests in a minute; wait ${waitS} s (Retry-After) or spread the calls out.`, {
-          headers: { 'Retry-After': String(waitS) },
-        }),
-      );
-    },
-  });
-  burstLimiters.set(ctx, limiter);
-  return limiter;
-}
-
-function unitsOf(units: ((req: Request, res: Response) => number) | undefined, req: Request, res: Response): number {
-  if (!units) return 1;
-  const n = units(req, res);
-  return Number.isFinite(n) && n >= 1 ? Math.floor(n) : 1;
-}
-
-/** Console calls: the burst limit through express-rate-limit, then the usage row; no key quota. */
-async function meterSession(ctx: AppContext, endpoint: string, units: number, res: Response): Promise<void> {
-  const caller = res.locals.caller as Caller;
-  await recordConsoleUsage(ctx.database.db, { organisationId: caller.organisationId, userId: caller.userId, endpoint, day: utcDay(ctx.clock.now()), units });
-}
-
-/**
- * The `RateLimit-Policy` field of a key (constant while its limits are): worked out once, as a hash
- * and two formatted items per request add up on the hot path. Bounded like any per-key memo.
- */
-const keyPolicies = new Map<string, { burstLimit: number; quota: number; burstItem: string; field: string }>();
-
-function keyPolicy(burstKey: string, burstLimit: number, quota: number): { burstItem: string; field: string } {
-  let policy = keyPolicies.get(burstKey);
-  if (policy === undefined || policy.burstLimit !== burstLimit || policy.quota !== quota) {
-    if (keyPolicies.size >= 10_000) keyPolicies.clear();
-    // express-rate-limit's draft-8 partition key, so key and console answers carry the same header shape.
-    const pk = Buffer.from(createHash('sha256').update(burstKey).digest('hex').slice(0, 12)).toString('base64');
-    const burstItem = `"burst"; q=${burstLimit}; w=${BURST_WINDOW_MS / 1000}; pk=:${pk}:`;
-    policy = { burstLimit, quota, burstItem, field: `${burstItem}, "daily"; q=${quota}; w=${SECONDS_PER_DAY}` };
-    keyPolicies.set(burstKey, policy);
-  }
-  return policy;
-}
-
-/**
- * Key calls: burst hit and quota units come from the key's lease in this process (KeyLeases), so most
- * calls are decided without a database round trip; the answer carries the same `"burst"` and `"daily"`
- * RateLimit items as console calls. Returns a promise only when the call had to wait for a lease.
- */
-function meterKey(ctx: AppContext, endpoint: string, units: number, res: Response): void | Promise<void> {
-  const caller = res.locals.caller as Caller;
-  const key = (res.locals.callerLimits as CallerLimits).key!;
-  const now = ctx.clock.now();
-  const day = utcDay(now);
-  const burstKey = `key:${key.id}`;
-  const decided = keyServicesFor(ctx.database, ctx.logger).leases.spend({
-    keyId: key.id,
-    organisationId: caller.organisationId,
-    userId: caller.userId,
-    endpoint,
-    day,
-    units,
-    burst: { row: `burst:${burstKey}`, windowMs: BURST_WINDOW_MS },
-  });
-  const call = { organisationId: caller.organisationId, key, burstKey, units, now, day };
-  if (decided instanceof Promise) return decided.then((decision) => applyKeyDecision(ctx, res, call, decision));
-  applyKeyDecision(ctx, res, call, decided);
-}
-
-function applyKeyDecision(
-  ctx: AppContext,
-  res: Response,
-  c: { organisationId: string; key: NonNullable<CallerLimits['key']>; burstKey: string; units: number; now: Date; day: string },
-  decision: MeterDecision,
-): void {
-  const { key, burstKey, units, now, day } = c;
-  const burst = decision.burst;
-  const quota = decision.quota;
-  // Each field is set once with its items joined (RFC 9651 lists), not appended item by item.
-  let limit = '';
-  let policy: string | undefined;
-  if (burst) {
-    const burstResetS = Math.max(0, Math.ceil((burst.resetAt.getTime() - Date.now()) / 1000));
-    limit = `"burst"; r=${Math.max(0, burst.limit - burst.totalHits)}; t=${burstResetS}, `;
-    const known = keyPolicy(burstKey, burst.limit, quota);
-    if (decision.refusedBy === 'burst') {
-      res.setHeader('RateLimit', limit.slice(0, -2));
-      res.setHeader('RateLimit-Policy', known.burstItem);
-      const waitS = Math.max(1, burstResetS);
-      throw new ApiError('tooManyRequests', `More than ${burst.limit} requests in a minute; wait ${waitS} s (Retry-After) or spread the calls out.`, {
-        headers: { 'Retry-After': String(waitS) },
-      });
-    }
-    policy = known.field;
-  }
-  const resetS = secondsUntilUtcMidnight(now);
-  const remaining = Math.max(0, quota - decision.used);
-  res.setHeader('RateLimit', `${limit}"daily"; r=${remaining}; t=${resetS}`);
-  res.setHeader('RateLimit-Policy', policy ?? `"daily"; q=${quota}; w=${SECONDS_PER_DAY}`);
-  if (!decision.admitted) {
-    const need = units > 1 ? ` This request needs ${units} units and ${remaining} remain.` : '';
-    throw new ApiError(
-      'tooManyRequests',
-      `Key ${key.displayStart}… has spent its ${quota} calculation units for ${day} (UTC).${need} ` +
-        `The quota starts again at 00:00 UTC, in ${resetS} s; an admin can raise it.`,
-      { headers: { 'Retry-After': String(resetS) } },
-    );
-  }
-  if (!(decision.warned80 && decision.warned100)) {
-    sendQuotaWarnings(ctx, { organisationId: c.organisationId, key: { ...key, dailyQuota: quota }, day, used: decision.used, warned80: decision.warned80, warned100: decision.warned100 });
-  }
-}
-
-/**
- * Admits a calculation or refuses it before any work: first the per-minute burst limit, then the
- * key's daily quota, spent atomically. `units` is how many calculation units the request costs
- * (default 1; a batch passes its item count); a request whose units do not fit is refused whole with 429.
- *
- * Key calls are decided by the key's lease in this process (see KeyLeases): units and burst hits are
- * reserved from the database in blocks, so no process can overspend, and usage rows are flushed in bulk. Console (session) calls go
- * through express-rate-limit (store in PostgreSQL) with the organisation's per-minute burst limit and
- * are recorded as the member's own usage (key null); they spend no key quota.
- *
- * Units are spent when the request is admitted, before the route validates its body: a request that
- * then fails validation has still cost its units (as with any per-request rate limit). Burst refusals
- * spend no daily units.
- */
-export function meterCalculation(ctx: AppContext, endpoint: string, units?: (req: Request, res: Response) => number): RequestHandler {
-  const burst = burstLimiter(ctx);
-  return (req: Request, res: Response, next: NextFunction) => {
-    const caller = res.locals.caller;
-    if (!caller || !res.locals.callerLimits) {
-      next(new Error('meterCalculation must run after requireCaller'));
-      return;
-    }
-    if (caller.kind === 'key' && res.locals.callerLimits.key) {
-      let pending: void | Promise<void>;
-      try {
-        pending = meterKey(ctx, endpoint, unitsOf(units, req, res), res);
-      } catch (err) {
-        next(err);
-        return;
-      }
-      if (pending) pending.then(() => next(), next);
-      else next();
-      return;
-    }
-    void burst(req, res, (err?: unknown) => {
-      if (err) {
-        next(err);
-        return;
-      }
-      meterSession(ctx, endpoint, unitsOf(units, req, res), res).then(() => next(), next);
-    });
-  };
-}
-
-/** `[requireCaller, meterCalculation]` for a calculation route. */
-export function calculationGuard(ctx: AppContext, endpoint: string, units?: (req: Request, res: Response) => number): RequestHandler[] {
-  return [requireCaller(ctx), meterCalculation(ctx, endpoint, units)];
 }

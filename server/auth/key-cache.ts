@@ -1,3 +1,5 @@
+import type { Clock } from '../context.ts';
+import { NO_CACHE_TALLY, type CacheTally } from '../metrics/app-metrics.ts';
 import type { VerifiedKey } from './verify-key.ts';
 
 /** A valid verification is reused for at most this long, even if no change is ever announced. */
@@ -29,6 +31,11 @@ export class VerifiedKeyCache {
   private readonly inflight = new Map<string, Promise<unknown>>();
   private _generation = 0;
 
+  constructor(
+    private readonly clock: Clock,
+    private readonly tally: CacheTally = NO_CACHE_TALLY,
+  ) {}
+
   get generation(): number {
     return this._generation;
   }
@@ -40,18 +47,20 @@ export class VerifiedKeyCache {
   /** The cached verification, if fresh and the key has not expired at `now`. */
   get(hash: string, now: Date): VerifiedKey | undefined {
     const entry = this.entries.get(hash);
+    // A miss is counted when the request goes on to wait for a verification (`shared`): a request may look twice.
     if (!entry) return undefined;
-    if (Date.now() - entry.storedAtMs > KEY_CACHE_TTL_MS || (entry.key.expiresAt && entry.key.expiresAt <= now)) {
+    if (this.clock.nowMs() - entry.storedAtMs > KEY_CACHE_TTL_MS || (entry.key.expiresAt && entry.key.expiresAt <= now)) {
       this.entries.delete(hash);
       return undefined;
     }
+    this.tally.hit();
     return entry.key;
   }
 
   /** A cached entry is old enough to be verified again ahead of its expiry. */
   isAging(hash: string): boolean {
     const entry = this.entries.get(hash);
-    return entry !== undefined && Date.now() - entry.storedAtMs > KEY_REFRESH_AFTER_MS;
+    return entry !== undefined && this.clock.nowMs() - entry.storedAtMs > KEY_REFRESH_AFTER_MS;
   }
 
   /**
@@ -60,6 +69,8 @@ export class VerifiedKeyCache {
    * arrives after a change is announced is given a read from before it.
    */
   shared<T>(hash: string, verify: () => Promise<T>): Promise<T> {
+    // With an entry still there this is a refresh ahead of expiry, which no request waits for.
+    if (!this.entries.has(hash)) this.tally.miss();
     const running = this.inflight.get(hash) as Promise<T> | undefined;
     if (running) return running;
     const started = verify().finally(() => {
@@ -80,7 +91,7 @@ export class VerifiedKeyCache {
       const oldest = this.entries.keys().next().value;
       if (oldest !== undefined) this.entries.delete(oldest);
     }
-    this.entries.set(hash, { key, storedAtMs: Date.now() });
+    this.entries.set(hash, { key, storedAtMs: this.clock.nowMs() });
   }
 
   /** Applies a `key:<id>` or `user:<id>` announcement; anything else empties the cache. */

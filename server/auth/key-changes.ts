@@ -1,5 +1,6 @@
 import pg from 'pg';
 import type { Logger } from 'pino';
+import type { Clock } from '../context.ts';
 
 /** The channel the triggers of drizzle/0004 announce key and member changes on. */
 export const KEY_CHANGES_CHANNEL = 'gammaline_key_changes';
@@ -20,7 +21,7 @@ const RECONNECT_MAX_MS = 5_000;
 export interface KeyChangeHandlers {
   /** A `key:<id>` or `user:<id>` payload arrived. */
   changed(payload: string): void;
-  /** Further channels heard on the same connection (the quota leases' reclaim and return notices). */
+  /** Further channels heard on the same connection, for other components that listen (the key services wire them). */
   other?: { channels: string[]; notified(channel: string, payload: string): void };
   /** The connection was (re)established: everything announced while it was down is unknown. */
   connected(): void;
@@ -48,10 +49,11 @@ export class KeyChangeListener {
     private readonly options: pg.ClientConfig,
     private readonly handlers: KeyChangeHandlers,
     private readonly logger: Logger,
+    private readonly clock: Clock,
   ) {}
 
   get healthy(): boolean {
-    return this.connected && Date.now() - this.lastAnswerMs <= FRESH_MS;
+    return this.connected && this.clock.nowMs() - this.lastAnswerMs <= FRESH_MS;
   }
 
   start(): void {
@@ -85,7 +87,7 @@ export class KeyChangeListener {
     if (this.client !== client || this.stopped) return;
     this.retryMs = RECONNECT_MIN_MS;
     this.connected = true;
-    this.lastAnswerMs = Date.now();
+    this.lastAnswerMs = this.clock.nowMs();
     this.handlers.connected();
     this.heartbeat = setInterval(() => this.beat(client), HEARTBEAT_MS).unref();
   }
@@ -93,7 +95,7 @@ export class KeyChangeListener {
   private beat(client: pg.Client): void {
     if (this.beating) return;
     this.beating = true;
-    const askedMs = Date.now();
+    const askedMs = this.clock.nowMs();
     const late = setTimeout(() => this.fail(client, new Error('heartbeat unanswered')), HEARTBEAT_TIMEOUT_MS).unref();
     client.query('select 1').then(
       () => {

@@ -1,6 +1,6 @@
 import type { Request, RequestHandler } from 'express';
 import { rateLimit, type RateLimitInfo } from 'express-rate-limit';
-import type { AppContext } from '../context.ts';
+import type { AppContext, Clock } from '../context.ts';
 import { ApiError } from '../http/problem.ts';
 import { PgRateLimitStore } from '../quota/pg-rate-limit-store.ts';
 
@@ -15,25 +15,45 @@ export const RESET_REQUESTS_PER_ADDRESS = 20;
 /** Reset e-mails per account in 15 minutes; more requests are answered the same way but send nothing. */
 export const RESET_MAILS_PER_ACCOUNT = 3;
 
-function waitSeconds(req: Request): number {
+function waitSeconds(req: Request, clock: Clock): number {
   const info = (req as Request & { rateLimit?: RateLimitInfo }).rateLimit;
-  return info?.resetTime ? Math.max(1, Math.ceil((info.resetTime.getTime() - Date.now()) / 1000)) : FIFTEEN_MINUTES_MS / 1000;
+  return info?.resetTime ? Math.max(1, Math.ceil((info.resetTime.getTime() - clock.nowMs()) / 1000)) : FIFTEEN_MINUTES_MS / 1000;
 }
 
-function throttle(ctx: AppContext, o: { prefix: string; limit: number; onlyFailures: boolean; key?: (req: Request, res: Parameters<RequestHandler>[1]) => string; message: (waitS: number) => string }): RequestHandler {
+interface ThrottleOptions {
+  /** Row prefix in the shared store: one counter per prefix and key. */
+  prefix: string;
+  limit: number;
+  /** Count only answers of 400 and above (failed sign-ins), not every request. */
+  onlyFailures: boolean;
+  /** Whom to count; the client address when omitted. */
+  key?: (req: Request) => string;
+  message: (waitS: number) => string;
+}
+
+function throttle(ctx: AppContext, options: ThrottleOptions): RequestHandler {
   return rateLimit({
     windowMs: FIFTEEN_MINUTES_MS,
-    limit: o.limit,
-    skipSuccessfulRequests: o.onlyFailures,
+    limit: options.limit,
+    skipSuccessfulRequests: options.onlyFailures,
     standardHeaders: false,
     legacyHeaders: false,
-    ...(o.key ? { keyGenerator: o.key } : {}),
-    store: new PgRateLimitStore(ctx.database.pool, o.prefix),
+    ...(options.key ? { keyGenerator: options.key } : {}),
+    store: new PgRateLimitStore(ctx.database.pool, options.prefix),
     handler: (req, _res, next) => {
-      const waitS = waitSeconds(req);
-      next(new ApiError('tooManyRequests', o.message(waitS), { headers: { 'Retry-After': String(waitS) } }));
+      const waitS = waitSeconds(req, ctx.clock);
+      next(new ApiError('tooManyRequests', options.message(waitS), { headers: { 'Retry-After': String(waitS) } }));
     },
   });
+}
+
+/**
+ * The lower-cased e-mail of a sign-in body. The throttle runs after the body was validated, so the
+ * address is a string; anything else would be a route that lost its validator, counted under "".
+ */
+function signInEmail(req: Request): string {
+  const email = (req.body as { email?: unknown } | undefined)?.email;
+  return typeof email === 'string' ? email.toLowerCase() : '';
 }
 
 /** Counts failed sign-ins per client address; mount before the body is validated. */
@@ -52,7 +72,7 @@ export function signInThrottleByAccount(ctx: AppContext): RequestHandler {
     prefix: 'sign-in:account:',
     limit: SIGN_IN_FAILURES_PER_ACCOUNT,
     onlyFailures: true,
-    key: (_req, res) => String((res.locals.body as { email: string }).email).toLowerCase(),
+    key: signInEmail,
     message: (s) => `Too many failed sign-ins for this account; try again in ${s} s, or choose a new password via POST /api/v1/password-reset.`,
   });
 }

@@ -15,7 +15,12 @@ export interface VerifiedKey {
   burstPerMinute: number;
   /** Kept so that a cached verification stops working the moment the key expires. */
   expiresAt: Date | null;
+  /** The browser origins whose pages may use the key (exact `Origin` values); read with the key, so a browser call costs no lookup. */
+  allowedOrigins: ReadonlySet<string>;
 }
+
+/** Most keys serve no browser page: they share one empty set. */
+const NO_ORIGINS: ReadonlySet<string> = new Set();
 
 /** The closed set of outcomes; callers only ever learn "valid" or "not valid". */
 export type KeyVerification =
@@ -40,6 +45,7 @@ export async function verifyApiKeyHash(db: Db, keyHash: string, now: Date): Prom
       dailyQuota: apiKeys.dailyQuota,
       burstPerMinute: apiKeys.burstPerMinute,
       expiresAt: apiKeys.expiresAt,
+      allowedOrigins: apiKeys.allowedOrigins,
       revokedAt: apiKeys.revokedAt,
       ownerEmail: users.email,
       role: users.role,
@@ -69,6 +75,7 @@ export async function verifyApiKeyHash(db: Db, keyHash: string, now: Date): Prom
       dailyQuota: row.dailyQuota,
       burstPerMinute: row.burstPerMinute,
       expiresAt: row.expiresAt,
+      allowedOrigins: row.allowedOrigins.length > 0 ? new Set(row.allowedOrigins) : NO_ORIGINS,
     },
   };
 }

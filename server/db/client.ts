@@ -3,6 +3,10 @@ import { drizzle, type NodePgDatabase } from 'drizzle-orm/node-postgres';
 import * as schema from './schema.ts';
 
 export type Db = NodePgDatabase<typeof schema>;
+/** A transaction handle, which runs the same queries as `Db`. */
+export type Tx = Parameters<Parameters<Db['transaction']>[0]>[0];
+/** What a repository function runs its queries on: the pool or an open transaction. */
+export type DbOrTx = Db | Tx;
 
 export interface Database {
   db: Db;

@@ -72,6 +72,11 @@ export const apiKeys = pgTable(
     revokedAt: timestamp('revoked_at', { withTimezone: true }),
     /** Member who created the key (an admin may create keys for others); null when created from the CLI. */
     createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
+    /**
+     * Exact browser origins (`https://log.example.org`) whose pages may call the API with this key; a
+     * request with an `Origin` header outside the list is refused. Empty: no browser page may use it.
+     */
+    allowedOrigins: text('allowed_origins').array().notNull().default(sql`'{}'::text[]`),
     /** When the key was created. */
     createdAt: timestamp('created_at', { withTimezone: true }).notNull().defaultNow(),
     /**

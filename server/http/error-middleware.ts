@@ -1,5 +1,6 @@
 import type { ErrorRequestHandler, RequestHandler } from 'express';
 import { ZodError } from 'zod';
+import { NonFiniteResultError } from '../../shared/calculations/finite.ts';
 import { RfInputError } from '../../shared/rf/errors.ts';
 import { isDatabaseUnavailable, isStatementCancelled } from '../db/unavailable.ts';
 import { ApiError, PROBLEM_CONTENT_TYPE } from './problem.ts';
@@ -36,6 +37,8 @@ export const problemErrorHandler: ErrorRequestHandler = (err, req, res, _next) =
   else if (err instanceof ZodError) apiError = apiErrorFromZod(err);
   else if (err instanceof RfInputError) {
     apiError = new ApiError('unprocessable', `${err.field}: ${err.message}`, { errors: [{ field: err.field, message: err.message }] });
+  } else if (err instanceof NonFiniteResultError) {
+    apiError = new ApiError('unprocessable', err.message);
   } else if (isDatabaseUnavailable(err)) {
     req.log?.warn({ err }, 'database unavailable');
     apiError = new ApiError('unavailable', 'The database is unreachable; retry shortly.', { headers: { 'Retry-After': String(DATABASE_RETRY_AFTER_S) } });

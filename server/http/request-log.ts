@@ -1,6 +1,7 @@
 import { randomBytes } from 'node:crypto';
-import type { Express, Request, RequestHandler } from 'express';
+import type { Express, Request, RequestHandler, Response } from 'express';
 import type { Logger } from 'pino';
+import type { AppMetrics } from '../metrics/app-metrics.ts';
 
 declare module 'http' {
   interface IncomingMessage {
@@ -8,6 +9,8 @@ declare module 'http' {
     id: string;
     /** A logger bound to the request id (made on first use). */
     log: Logger;
+    /** performance.now() when the request reached the app: the start of its logged and measured time. */
+    receivedAtMs: number;
   }
 }
 
@@ -27,7 +30,7 @@ let minted = 0;
  * printable token, safe to log; otherwise one is minted. Support finds a call by the `Request-Id` answered. `req.log` is a child logger created only when a route logs something: on the hot path
  * a request costs an id and, when info is enabled, one small line.
  */
-export function requestLog(app: Express, logger: Logger): RequestHandler {
+export function requestLog(app: Express, logger: Logger, metrics?: AppMetrics): RequestHandler {
   Object.defineProperty(app.request, 'log', {
     configurable: true,
     get(this: Request) {
@@ -36,25 +39,33 @@ export function requestLog(app: Express, logger: Logger): RequestHandler {
       return child;
     },
   });
+  const logging = logger.isLevelEnabled('info');
+  // One listener function for every request (`this` is the response): no closure per request.
+  function finished(this: Response): void {
+    const req = this.req;
+    const status = this.statusCode;
+    const ms = performance.now() - req.receivedAtMs;
+    metrics?.observeRequest(req.route as { path: unknown } | undefined, req.originalUrl, req.method, status, ms / 1000);
+    if (!logging) return;
+    const queryAt = req.originalUrl.indexOf('?');
+    const line = {
+      reqId: req.id,
+      req: { method: req.method, path: queryAt === -1 ? req.originalUrl : req.originalUrl.slice(0, queryAt) },
+      res: { statusCode: status },
+      responseTime: Math.round(ms),
+    };
+    if (status >= 500) logger.error(line, 'request failed');
+    else logger.info(line, 'request completed');
+  }
+  const listen = logging || metrics !== undefined;
   return (req, res, next) => {
     const incoming = req.headers['x-request-id'] ?? req.headers['request-id'];
     const id = typeof incoming === 'string' && REQUEST_ID_PATTERN.test(incoming) ? incoming : `${ID_PREFIX}${(++minted).toString(16).padStart(12, '0')}`;
     req.id = id;
     res.setHeader('Request-Id', id);
-    if (logger.isLevelEnabled('info')) {
-      const started = performance.now();
-      res.once('finish', () => {
-        const status = res.statusCode;
-        const queryAt = req.originalUrl.indexOf('?');
-        const line = {
-          reqId: id,
-          req: { method: req.method, path: queryAt === -1 ? req.originalUrl : req.originalUrl.slice(0, queryAt) },
-          res: { statusCode: status },
-          responseTime: Math.round(performance.now() - started),
-        };
-        if (status >= 500) logger.error(line, 'request failed');
-        else logger.info(line, 'request completed');
-      });
+    if (listen) {
+      req.receivedAtMs = performance.now();
+      res.on('finish', finished);
     }
     next();
   };

@@ -10,54 +10,74 @@ const MONTHS = ['January', 'February', 'March', 'April', 'May', 'June', 'July', 
  * @example plainUtc(new Date('2026-12-11T16:30:00Z')) // '11 December 2026, 16:30 UTC'
  */
 export function plainUtc(at: Date): string {
-  const two = (n: number) => String(n).padStart(2, '0');
-  return `${at.getUTCDate()} ${MONTHS[at.getUTCMonth()]} ${at.getUTCFullYear()}, ${two(at.getUTCHours())}:${two(at.getUTCMinutes())} UTC`;
+  const twoDigits = (value: number) => String(value).padStart(2, '0');
+  return `${at.getUTCDate()} ${MONTHS[at.getUTCMonth()]} ${at.getUTCFullYear()}, ${twoDigits(at.getUTCHours())}:${twoDigits(at.getUTCMinutes())} UTC`;
 }
 
-export function invitationMail(p: { to: string; organisationId: string; organisationName: string; invitedBy: string; role: string; link: string; expiresAt: Date }): OutgoingMail {
+/**
+ * The invitation letter. An address that already signs in to Gammaline (in another organisation) is
+ * told to accept signed in, which moves that account; the admin who invited never learns which letter went out.
+ */
+export function invitationMail(invitation: {
+  to: string;
+  organisationId: string;
+  organisationName: string;
+  invitedBy: string;
+  role: string;
+  link: string;
+  expiresAt: Date;
+  hasAccount: boolean;
+}): OutgoingMail {
+  const how = invitation.hasAccount
+    ? [
+        'You already have a Gammaline account with this address, in another organisation. To accept, sign in to Gammaline with that account first, then open this link and accept:',
+        invitation.link,
+        '',
+        `Accepting moves your account to ${invitation.organisationName}: you keep your name and password, your API keys in your current organisation are revoked, and the sweeps and feed lines you saved there stay with that organisation. If you are its only admin, make another member an admin there first.`,
+      ]
+    : ['Choose your name and password here:', invitation.link];
   return {
-    to: p.to,
-    organisationId: p.organisationId,
-    subject: `You are invited to ${p.organisationName} on Gammaline`,
+    to: invitation.to,
+    organisationId: invitation.organisationId,
+    subject: `You are invited to ${invitation.organisationName} on Gammaline`,
     text: [
-      `${p.invitedBy} invites you to join ${p.organisationName} on Gammaline as ${p.role === 'admin' ? 'an admin' : 'a developer'}.`,
+      `${invitation.invitedBy} invites you to join ${invitation.organisationName} on Gammaline as ${invitation.role === 'admin' ? 'an admin' : 'a developer'}.`,
       '',
-      'Choose your name and password here:',
-      p.link,
+      ...how,
       '',
-      `The link works once and until ${plainUtc(p.expiresAt)}.`,
+      `The link works once and until ${plainUtc(invitation.expiresAt)}.`,
       'If you did not expect this, ignore this message.',
     ].join('\n'),
   };
 }
 
-export function passwordResetMail(p: { to: string; organisationId: string; link: string; expiresAt: Date }): OutgoingMail {
+export function passwordResetMail(reset: { to: string; organisationId: string; link: string; expiresAt: Date }): OutgoingMail {
   return {
-    to: p.to,
-    organisationId: p.organisationId,
+    to: reset.to,
+    organisationId: reset.organisationId,
     subject: 'Choose a new Gammaline password',
     text: [
       'Someone (hopefully you) asked to choose a new password for this address on Gammaline.',
       '',
       'Choose it here:',
-      p.link,
+      reset.link,
       '',
-      `The link works once and until ${plainUtc(p.expiresAt)}. Your current password keeps working until you choose a new one.`,
+      `The link works once and until ${plainUtc(reset.expiresAt)}. Your current password keeps working until you choose a new one.`,
       'If you did not ask for this, ignore this message.',
     ].join('\n'),
   };
 }
 
-export function quotaWarningMail(p: { to: string; organisationId: string; keyName: string; displayStart: string; used: number; quota: number; threshold: 80 | 100; day: string }): OutgoingMail {
-  const reached = p.threshold === 100;
+export function quotaWarningMail(warning: { to: string; organisationId: string; keyName: string; displayStart: string; used: number; quota: number; threshold: 80 | 100; day: string }): OutgoingMail {
+  const reached = warning.threshold === 100;
   return {
-    to: p.to,
-    organisationId: p.organisationId,
+    to: warning.to,
+    organisationId: warning.organisationId,
     subject: reached
-      ? `Gammaline key "${p.keyName}" has used its whole daily quota`
-      : `Gammaline key "${p.keyName}" has used ${p.threshold} % of its daily quota`,
+      ? `Gammaline key "${warning.keyName}" has used its whole daily quota`
+      : `Gammaline key "${warning.keyName}" has used ${warning.threshold} % of its daily quota`,
     text: [
-      `Your key "${p.keyName}" (${p.displayStart}…) has spent ${p.used} of its ${p.quota} calculation units for ${p.day} (UTC).`,
+      `Your key "${warning.keyName}" (${warning.displayStart}…) has spent ${warning.used} of its ${warning.quota} calculation units for ${warning.day} (UTC).`,
       reached
         ? 'Further calculations with this key are refused (HTTP 429) until midnight UTC.'
         : 'When the quota is spent, calculations with this key are refused (HTTP 429) until midnight UTC.',

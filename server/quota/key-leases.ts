@@ -1,9 +1,11 @@
 import { randomUUID } from 'node:crypto';
 import { sql } from 'drizzle-orm';
 import type { Logger } from 'pino';
+import type { Clock } from '../context.ts';
 import type { Db } from '../db/client.ts';
+import { NO_QUOTA_TALLY, type QuotaTally } from '../metrics/app-metrics.ts';
 import { utcDay } from './day.ts';
-import { countOtherHolders, flushKeyUsage, leaseKeyUnits, returnKeyLease, type BufferedUsage } from './quota.repository.ts';
+import { countOtherHolders, flushKeyUsage, leaseKeyUnits, returnKeyLease, type BufferedUsage, type LeaseGrant } from './quota.repository.ts';
 import { UsageBuffer } from './usage-buffer.ts';
 
 /** A process that cannot cover a request asks the others for their unspent units on this channel… */
@@ -55,7 +57,8 @@ export interface MeterDecision {
   quota: number;
   warned80: boolean;
   warned100: boolean;
-  burst?: { totalHits: number; limit: number; resetAt: Date };
+  /** `resetAtMs`: when the window ends on the app's clock. */
+  burst?: { totalHits: number; limit: number; resetAtMs: number };
 }
 
 interface Waiting {
@@ -74,7 +77,10 @@ class KeyDayPool {
   units = 0;
   /** Reserved hits of the per-minute window ending at resetAt. */
   hits = 0;
+  /** The window's end as the database wrote it: names the window in returns and tells windows apart. */
   resetAt: Date | undefined;
+  /** The same end on the app's clock (the lease's send time plus what the database said was left). */
+  resetAtMs = 0;
   burstLimit = 0;
   /** The window's hits in the database after this process's latest lease (reservations included). */
   burstHits = 0;
@@ -120,7 +126,7 @@ class KeyDayPool {
   ) {}
 
   hitsValid(nowMs: number): boolean {
-    return this.resetAt !== undefined && this.resetAt.getTime() > nowMs;
+    return this.resetAt !== undefined && this.resetAtMs > nowMs;
   }
 
   noteUse(units: number, nowMs: number): void {
@@ -184,6 +190,8 @@ export class KeyLeases {
   constructor(
     private readonly db: Db,
     private readonly logger: Logger,
+    private readonly clock: Clock,
+    private readonly tally: QuotaTally = NO_QUOTA_TALLY,
   ) {}
 
   start(): void {
@@ -196,7 +204,7 @@ export class KeyLeases {
    */
   spend(call: MeteredCall): MeterDecision | Promise<MeterDecision> {
     const pool = this.pool(call);
-    const nowMs = Date.now();
+    const nowMs = this.clock.nowMs();
     pool.lastUseMs = nowMs;
     // While a lease runs, its group was sized on what the pool holds: later calls wait for the next one.
     // A top-up is sized on nobody's need, so calls keep spending during it (unless a give-back was asked:
@@ -254,9 +262,10 @@ export class KeyLeases {
     const [keyId, day, from] = payload.split('/');
     if (!keyId || !day || !from || from === this.instanceId) return;
     if (channel === QUOTA_RECLAIM_CHANNEL) {
+      this.tally.reclaim('received');
       const pool = this.pools.get(`${keyId}/${day}`);
       if (!pool) return;
-      pool.needOnlyUntilMs = Date.now() + NEED_ONLY_MS;
+      pool.needOnlyUntilMs = this.clock.nowMs() + NEED_ONLY_MS;
       void this.askGiveBack(pool);
       // Waiting for others' units while holding some of our own would leave both sides waiting.
       pool.wakeReclaim?.();
@@ -312,6 +321,7 @@ export class KeyLeases {
     if (needsHit) pool.hits -= 1;
     pool.noteUse(call.units, nowMs);
     this.usage.add({ organisationId: call.organisationId, userId: call.userId, keyId: call.keyId, endpoint: call.endpoint, day: call.day, units: call.units });
+    this.tally.spent(call.endpoint, call.units);
     const decided = this.decision(pool, true);
     // The call that crosses a threshold claims its warning; later ones need not try again.
     if (decided.used * 100 >= decided.quota * 80) pool.warned80 = true;
@@ -327,7 +337,7 @@ export class KeyLeases {
       quota: pool.quota,
       warned80: pool.warned80,
       warned100: pool.warned100,
-      burst: pool.resetAt && { totalHits: pool.burstHits - pool.hits, limit: pool.burstLimit, resetAt: pool.resetAt },
+      burst: pool.resetAt && { totalHits: pool.burstHits - pool.hits, limit: pool.burstLimit, resetAtMs: pool.resetAtMs },
     };
   }
 
@@ -378,7 +388,7 @@ export class KeyLeases {
 
   /** Decides a group of waiting calls: from what the pool holds, else after one lease. */
   private async decide(pool: KeyDayPool, group: Waiting[]): Promise<void> {
-    const nowMs = Date.now();
+    const nowMs = this.clock.nowMs();
     if (!pool.hitsValid(nowMs)) pool.hits = 0; // a past window's hits are void
     // In arrival order, what the pool already covers needs no round trip.
     let first = 0;
@@ -401,6 +411,7 @@ export class KeyLeases {
     // moments of a window the database still counts are not reserved ahead for nobody.
     const retryingWindow = short.some((w) => (w.windowRetries ?? 0) > 0);
     const windowBefore = pool.resetAt?.getTime();
+    const askedMs = this.clock.nowMs();
     const grant = await leaseKeyUnits(this.db, {
       instanceId: this.instanceId,
       keyId: pool.keyId,
@@ -413,22 +424,23 @@ export class KeyLeases {
       unspent: pool.units,
       burst: short[0]!.call.burst,
     });
-    const windowChanged = this.takeGrant(pool, grant, windowBefore);
+    this.tally.leased(grant.units);
+    const windowChanged = this.takeGrant(pool, grant, windowBefore, askedMs);
     const refused: Waiting[] = [];
     for (const w of short) {
-      const decided = this.admit(pool, w.call, Date.now());
+      const decided = this.admit(pool, w.call, this.clock.nowMs());
       if (decided) w.resolve(decided);
       else refused.push(w);
     }
     if (refused.length === 0) return;
-    const nowAfter = Date.now();
+    const nowAfter = this.clock.nowMs();
     const noHit = (w: Waiting) => w.call.burst !== undefined && !(pool.hits >= 1 && pool.hitsValid(nowAfter));
     const again: Waiting[] = [];
     const final: Waiting[] = [];
     const askOthers = grant.holders > 0 && refused.some((w) => !w.reclaimed);
     // The database reads its clock when the lease starts: a lease just before the minute turns can grant
     // hits of a window that is over by the time the answer arrives. Those hits are void, not a refusal.
-    const grantedWindowOver = grant.burst !== undefined && grant.burst.resetAt.getTime() <= nowAfter;
+    const grantedWindowOver = grant.burst !== undefined && askedMs + grant.burst.resetInMs <= nowAfter;
     let waitForWindow = false;
     for (const w of refused) {
       if (askOthers && !w.reclaimed) {
@@ -442,7 +454,11 @@ export class KeyLeases {
         final.push(w);
       }
     }
-    for (const w of final) w.resolve(this.decision(pool, false, noHit(w) ? 'burst' : 'quota'));
+    for (const w of final) {
+      const reason = noHit(w) ? 'burst' : 'quota';
+      this.tally.refused(w.call.endpoint, reason, w.call.units);
+      w.resolve(this.decision(pool, false, reason));
+    }
     // Units that could not cover a refused call are not kept for nobody: they go back (and to other processes).
     if (final.some((w) => !noHit(w)) && pool.units > 0) pool.giveBackAsked = true;
     if (again.length === 0) return;
@@ -452,14 +468,14 @@ export class KeyLeases {
     pool.waiting.unshift(...again);
   }
 
-  /** Adds a lease's grant to the pool; true when it started a new per-minute window. */
-  private takeGrant(pool: KeyDayPool, grant: Awaited<ReturnType<typeof leaseKeyUnits>>, windowBefore: number | undefined): boolean {
+  /** Adds a lease's grant (asked at `askedMs`) to the pool; true when it started a new per-minute window. */
+  private takeGrant(pool: KeyDayPool, grant: LeaseGrant, windowBefore: number | undefined, askedMs: number): boolean {
     pool.units += grant.units;
     pool.leased = true;
     // The lease wrote the row from the units held when it started; calls may have spent some since (a
     // top-up), and a flush under way may overwrite the row: the next flush writes it again regardless.
     pool.reportedUnits = -1;
-    pool.reportedAtMs = Date.now();
+    pool.reportedAtMs = this.clock.nowMs();
     pool.used = grant.used;
     pool.quota = grant.quota;
     pool.warned80 = grant.warned80;
@@ -469,6 +485,7 @@ export class KeyLeases {
     if (windowChanged) pool.hits = 0;
     pool.hits += grant.hits;
     pool.resetAt = grant.burst.resetAt;
+    pool.resetAtMs = askedMs + grant.burst.resetInMs;
     pool.burstLimit = grant.burst.limit;
     pool.burstHits = grant.burst.hits;
     return windowChanged;
@@ -476,7 +493,7 @@ export class KeyLeases {
 
   /** A lease for the advance target alone, while calls go on spending what the pool holds. */
   private async topUp(pool: KeyDayPool): Promise<void> {
-    const nowMs = Date.now();
+    const nowMs = this.clock.nowMs();
     if (!pool.hitsValid(nowMs)) pool.hits = 0;
     const target = pool.extra(nowMs);
     const extraUnits = Math.max(0, target.units - pool.units);
@@ -484,6 +501,7 @@ export class KeyLeases {
     if (extraUnits === 0 && extraHits === 0) return;
     if (pool.pendingReturn) await this.sendPendingReturn(pool);
     const windowBefore = pool.resetAt?.getTime();
+    const askedMs = this.clock.nowMs();
     const grant = await leaseKeyUnits(this.db, {
       instanceId: this.instanceId,
       keyId: pool.keyId,
@@ -495,10 +513,11 @@ export class KeyLeases {
       unspent: pool.units,
       burst: pool.burst,
     });
-    this.takeGrant(pool, grant, windowBefore);
+    this.tally.leased(grant.units);
+    this.takeGrant(pool, grant, windowBefore, askedMs);
     // The database grants at most an eighth of what is free: near the end of a quota, asking again on
     // every call would only lock the key's row for nothing.
-    if (grant.units * 2 < extraUnits) pool.topUpQuietUntilMs = Date.now() + TOP_UP_QUIET_MS;
+    if (grant.units * 2 < extraUnits) pool.topUpQuietUntilMs = this.clock.nowMs() + TOP_UP_QUIET_MS;
   }
 
   /** Asks the other processes holding units of this key and day to give them back, and waits for them. */
@@ -522,6 +541,7 @@ export class KeyLeases {
     }
     waits.add(heard);
     try {
+      this.tally.reclaim('sent');
       await this.db.execute(sql`select pg_notify(${QUOTA_RECLAIM_CHANNEL}, ${`${id}/${this.instanceId}`})`);
       await done;
     } catch (err) {
@@ -546,7 +566,7 @@ export class KeyLeases {
   private async giveBack(pool: KeyDayPool): Promise<void> {
     if (!pool.pendingReturn) {
       const units = pool.units;
-      const hits = pool.hitsValid(Date.now()) ? pool.hits : 0;
+      const hits = pool.hitsValid(this.clock.nowMs()) ? pool.hits : 0;
       if (units === 0 && hits === 0 && !pool.leased) return;
       pool.units = 0;
       pool.hits = 0;
@@ -564,13 +584,14 @@ export class KeyLeases {
   private async sendPendingReturn(pool: KeyDayPool): Promise<void> {
     const r = pool.pendingReturn!;
     await returnKeyLease(this.db, { instanceId: this.instanceId, keyId: pool.keyId, day: pool.day, units: r.units, burstRow: pool.burstRow, hits: r.hits, resetAt: r.resetAt });
+    this.tally.gaveBack(r.units);
     pool.pendingReturn = undefined;
     pool.leased = false;
     pool.reportedUnits = 0;
   }
 
   private async tick(): Promise<void> {
-    const nowMs = Date.now();
+    const nowMs = this.clock.nowMs();
     const today = utcDay(new Date(nowMs));
     for (const [id, pool] of this.pools) {
       if (pool.running || pool.waiting.length > 0) continue;
@@ -585,7 +606,7 @@ export class KeyLeases {
   /** One flush: the one that failed last time first (same number), else what has been collected. */
   private async flushOnce(): Promise<void> {
     if (!this.pendingFlush) {
-      const nowMs = Date.now();
+      const nowMs = this.clock.nowMs();
       const leases: { keyId: string; day: string; units: number }[] = [];
       for (const pool of this.pools.values()) {
         if (!pool.leased) continue;

@@ -7,8 +7,8 @@ export const LAST_USED_FLUSH_MS = 1_000;
 
 /**
  * Collects when each key was last used in memory and writes all of them with one statement per
- * interval, instead of one UPDATE of api_keys per request. Units, requests and the quota are written
- * with the spend itself (group commit); only this display value is deferred.
+ * interval, instead of one UPDATE of api_keys per request. The times come from the app's clock
+ * (passed in by the caller), so this recorder reads none itself.
  */
 export class LastUsedRecorder {
   private pending = new Map<string, Date>();

@@ -25,56 +25,36 @@ export interface KeySpendGroup {
   userId: string;
   day: string;
   requests: { units: number; endpoint: string }[];
-  /** Counts the requests as hits of this per-minute window row first (`burst:key:<id>`); omitted: no burst counting. */
-  burst?: { row: string; windowMs: number };
-}
-
-/** The burst window after a group: the n-th request of the group saw `hits - group size + n`. */
-export interface GroupBurst {
-  hits: number;
-  limit: number;
-  resetAt: Date;
 }
 
 /**
- * Decides a whole group of metered requests in ONE statement (`gammaline_meter_key`, see drizzle/0004):
- * optionally counted against the key's per-minute window, then, under the day row's lock, each request
- * within the burst limit is granted in arrival order when its units still fit; the total is added to
- * the day and the granted units to usage_daily. The day's total never exceeds the key's current quota,
- * whatever the number of processes; results come back in the order of `g.requests`.
+ * Decides a whole group of quota spends in ONE statement (`gammaline_spend_key`, see drizzle/0007):
+ * under the day row's lock each request is granted in arrival order when its units still fit; the
+ * total is added to the day and the granted units to usage_daily. The day's total never exceeds the
+ * key's current quota, whatever the number of processes; results come back in the order of `group.requests`.
  */
-export async function meterKeyGroup(db: Db, g: KeySpendGroup): Promise<{ results: KeySpendResult[]; burst?: GroupBurst }> {
-  const units = g.requests.map((r) => r.units);
-  const endpoints = g.requests.map((r) => r.endpoint);
-  const result = await db.execute<{
-    granted: boolean[];
-    used: number;
-    quota: number;
-    warned80: boolean;
-    warned100: boolean;
-    hits: number | null;
-    burst_limit: number;
-    reset_at: Date | string | null;
-  }>(sql`
-    select granted, used, quota, warned80, warned100, hits, burst_limit, reset_at
-    from gammaline_meter_key(${g.keyId}::uuid, ${g.organisationId}::uuid, ${g.userId}::uuid, ${g.day}::date,
-      ${sql.param(units)}::int[], ${sql.param(endpoints)}::text[], ${g.burst?.row ?? null}::text, ${g.burst?.windowMs ?? 0}::int)`);
+export async function spendKeyUnitsGroup(db: Db, group: KeySpendGroup): Promise<KeySpendResult[]> {
+  const units = group.requests.map((request) => request.units);
+  const endpoints = group.requests.map((request) => request.endpoint);
+  const result = await db.execute<{ granted: boolean[]; used: number; quota: number; warned80: boolean; warned100: boolean }>(sql`
+    select granted, used, quota, warned80, warned100
+    from gammaline_spend_key(${group.keyId}::uuid, ${group.organisationId}::uuid, ${group.userId}::uuid, ${group.day}::date,
+      ${sql.param(units)}::int[], ${sql.param(endpoints)}::text[])`);
   const row = result.rows[0]!;
   const used = Number(row.used);
   const quota = Number(row.quota);
-  const results = row.granted.map((ok): KeySpendResult => (ok ? { admitted: true, used, quota, warned80: row.warned80, warned100: row.warned100 } : { admitted: false, used, quota }));
-  const burst = row.hits === null || row.reset_at === null ? undefined : { hits: Number(row.hits), limit: Number(row.burst_limit), resetAt: new Date(row.reset_at) };
-  return { results, burst };
-}
-
-/** Quota spends of one key without burst counting, decided together (see meterKeyGroup). */
-export async function spendKeyUnitsGroup(db: Db, g: Omit<KeySpendGroup, 'burst'>): Promise<KeySpendResult[]> {
-  return (await meterKeyGroup(db, g)).results;
+  return row.granted.map((ok): KeySpendResult => (ok ? { admitted: true, used, quota, warned80: row.warned80, warned100: row.warned100 } : { admitted: false, used, quota }));
 }
 
 /** One spend on its own (NDJSON blocks): the group statement with a group of one. */
-export async function spendKeyUnits(db: Db, s: KeySpend): Promise<KeySpendResult> {
-  const [result] = await spendKeyUnitsGroup(db, { keyId: s.keyId, organisationId: s.organisationId, userId: s.userId, day: s.day, requests: [{ units: s.units, endpoint: s.endpoint }] });
+export async function spendKeyUnits(db: Db, spend: KeySpend): Promise<KeySpendResult> {
+  const [result] = await spendKeyUnitsGroup(db, {
+    keyId: spend.keyId,
+    organisationId: spend.organisationId,
+    userId: spend.userId,
+    day: spend.day,
+    requests: [{ units: spend.units, endpoint: spend.endpoint }],
+  });
   return result!;
 }
 
@@ -99,10 +79,10 @@ export async function unitsUsed(db: Db, keyId: string, day: string): Promise<num
 }
 
 /** Console calls have no daily quota; they are only recorded against the member, key null. */
-export async function recordConsoleUsage(db: Db, r: { organisationId: string; userId: string; endpoint: string; day: string; units: number }): Promise<void> {
+export async function recordConsoleUsage(db: Db, usage: { organisationId: string; userId: string; endpoint: string; day: string; units: number }): Promise<void> {
   await db.execute(sql`
     insert into usage_daily as u (organisation_id, user_id, key_id, endpoint, day, units, requests)
-    values (${r.organisationId}::uuid, ${r.userId}::uuid, null, ${r.endpoint}, ${r.day}::date, ${r.units}::int, 1)
+    values (${usage.organisationId}::uuid, ${usage.userId}::uuid, null, ${usage.endpoint}, ${usage.day}::date, ${usage.units}::int, 1)
     on conflict (user_id, endpoint, day) where key_id is null
     do update set units = u.units + excluded.units, requests = u.requests + 1`);
 }
@@ -147,8 +127,12 @@ export interface LeaseGrant {
   quota: number;
   warned80: boolean;
   warned100: boolean;
-  /** The per-minute window after the grant (hits include every process's reservations). */
-  burst?: { hits: number; limit: number; resetAt: Date };
+  /**
+   * The per-minute window after the grant (hits include every process's reservations): its end as the
+   * database wrote it, and how long it still had to run when the database granted (so that a process
+   * places the end on its own clock).
+   */
+  burst?: { hits: number; limit: number; resetAt: Date; resetInMs: number };
   /** Other live processes holding unspent units of this key and day. */
   holders: number;
 }
@@ -157,7 +141,7 @@ export interface LeaseGrant {
  * Reserves quota units and per-minute hits for one key and day in ONE statement; the day's spent and
  * reserved total never exceeds the key's current quota whatever the number of processes.
  */
-export async function leaseKeyUnits(db: Db, a: LeaseAsk): Promise<LeaseGrant> {
+export async function leaseKeyUnits(db: Db, ask: LeaseAsk): Promise<LeaseGrant> {
   const result = await db.execute<{
     granted_units: number;
     granted_hits: number;
@@ -168,11 +152,13 @@ export async function leaseKeyUnits(db: Db, a: LeaseAsk): Promise<LeaseGrant> {
     hits: number | null;
     burst_limit: number;
     reset_at: Date | string | null;
+    reset_in_ms: number | null;
     holders: number;
   }>(sql`
-    select granted_units, granted_hits, used, quota, warned80, warned100, hits, burst_limit, reset_at, holders
-    from gammaline_lease_key(${a.instanceId}::uuid, ${a.keyId}::uuid, ${a.day}::date, ${a.needUnits}::int, ${a.extraUnits}::int,
-      ${a.needHits}::int, ${a.extraHits}::int, ${a.unspent}::int, ${a.burst?.row ?? null}::text, ${a.burst?.windowMs ?? 0}::int)`);
+    select granted_units, granted_hits, used, quota, warned80, warned100, hits, burst_limit, reset_at,
+      extract(epoch from reset_at - now()) * 1000 as reset_in_ms, holders
+    from gammaline_lease_key(${ask.instanceId}::uuid, ${ask.keyId}::uuid, ${ask.day}::date, ${ask.needUnits}::int, ${ask.extraUnits}::int,
+      ${ask.needHits}::int, ${ask.extraHits}::int, ${ask.unspent}::int, ${ask.burst?.row ?? null}::text, ${ask.burst?.windowMs ?? 0}::int)`);
   const row = result.rows[0]!;
   return {
     units: Number(row.granted_units),
@@ -181,16 +167,19 @@ export async function leaseKeyUnits(db: Db, a: LeaseAsk): Promise<LeaseGrant> {
     quota: Number(row.quota),
     warned80: row.warned80,
     warned100: row.warned100,
-    burst: row.hits === null || row.reset_at === null ? undefined : { hits: Number(row.hits), limit: Number(row.burst_limit), resetAt: new Date(row.reset_at) },
+    burst:
+      row.hits === null || row.reset_at === null
+        ? undefined
+        : { hits: Number(row.hits), limit: Number(row.burst_limit), resetAt: new Date(row.reset_at), resetInMs: Number(row.reset_in_ms) },
     holders: Number(row.holders),
   };
 }
 
 /** Other live processes holding unspent units of a key and day (the holders a reclaim asks). */
-export async function countOtherHolders(db: Db, h: { instanceId: string; keyId: string; day: string }): Promise<number> {
+export async function countOtherHolders(db: Db, holder: { instanceId: string; keyId: string; day: string }): Promise<number> {
   const result = await db.execute<{ n: number }>(sql`
     select count(*)::int as n from quota_leases l
-    where l.key_id = ${h.keyId}::uuid and l.day = ${h.day}::date and l.instance_id <> ${h.instanceId}::uuid
+    where l.key_id = ${holder.keyId}::uuid and l.day = ${holder.day}::date and l.instance_id <> ${holder.instanceId}::uuid
       and l.units > 0 and l.updated_at > now() - interval '5 seconds'`);
   return Number(result.rows[0]!.n);
 }
@@ -210,11 +199,11 @@ export async function pruneQuotaBookkeeping(pool: pg.Pool): Promise<void> {
 /** Gives unspent reserved units (and hits of a still-current window) back and drops the lease row (once: see drizzle/0005). */
 export async function returnKeyLease(
   db: Db,
-  r: { instanceId: string; keyId: string; day: string; units: number; burstRow?: string; hits: number; resetAt?: Date },
+  lease: { instanceId: string; keyId: string; day: string; units: number; burstRow?: string; hits: number; resetAt?: Date },
 ): Promise<void> {
   await db.execute(sql`
-    select gammaline_return_lease(${r.instanceId}::uuid, ${r.keyId}::uuid, ${r.day}::date, ${r.units}::int,
-      ${r.burstRow ?? null}::text, ${r.hits}::int, ${r.resetAt?.toISOString() ?? null}::timestamptz)`);
+    select gammaline_return_lease(${lease.instanceId}::uuid, ${lease.keyId}::uuid, ${lease.day}::date, ${lease.units}::int,
+      ${lease.burstRow ?? null}::text, ${lease.hits}::int, ${lease.resetAt?.toISOString() ?? null}::timestamptz)`);
 }
 
 /** Usage of one key, endpoint and day, added up in memory since the last flush. */
@@ -234,15 +223,16 @@ export interface BufferedUsage {
  */
 export async function flushKeyUsage(
   db: Db,
-  f: { instanceId: string; seq: number; usage: BufferedUsage[]; leases: { keyId: string; day: string; units: number }[] },
+  flush: { instanceId: string; seq: number; usage: BufferedUsage[]; leases: { keyId: string; day: string; units: number }[] },
 ): Promise<boolean> {
-  const u = f.usage;
+  const usage = flush.usage;
+  const leases = flush.leases;
   const result = await db.execute<{ applied: boolean }>(sql`
-    select gammaline_flush_usage(${f.instanceId}::uuid, ${f.seq}::bigint,
-      ${sql.param(u.map((r) => r.organisationId))}::uuid[], ${sql.param(u.map((r) => r.userId))}::uuid[], ${sql.param(u.map((r) => r.keyId))}::uuid[],
-      ${sql.param(u.map((r) => r.endpoint))}::text[], ${sql.param(u.map((r) => r.day))}::date[],
-      ${sql.param(u.map((r) => r.units))}::int[], ${sql.param(u.map((r) => r.requests))}::int[],
-      ${sql.param(f.leases.map((l) => l.keyId))}::uuid[], ${sql.param(f.leases.map((l) => l.day))}::date[], ${sql.param(f.leases.map((l) => l.units))}::int[]
+    select gammaline_flush_usage(${flush.instanceId}::uuid, ${flush.seq}::bigint,
+      ${sql.param(usage.map((row) => row.organisationId))}::uuid[], ${sql.param(usage.map((row) => row.userId))}::uuid[], ${sql.param(usage.map((row) => row.keyId))}::uuid[],
+      ${sql.param(usage.map((row) => row.endpoint))}::text[], ${sql.param(usage.map((row) => row.day))}::date[],
+      ${sql.param(usage.map((row) => row.units))}::int[], ${sql.param(usage.map((row) => row.requests))}::int[],
+      ${sql.param(leases.map((lease) => lease.keyId))}::uuid[], ${sql.param(leases.map((lease) => lease.day))}::date[], ${sql.param(leases.map((lease) => lease.units))}::int[]
     ) as applied`);
   return result.rows[0]!.applied;
 }

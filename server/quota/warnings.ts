@@ -16,17 +16,17 @@ interface WarningInput {
  * once each per day (the flag is claimed atomically). Runs after the response path: a slow mail
  * server never delays a calculation.
  */
-export function sendQuotaWarnings(ctx: AppContext, w: WarningInput): void {
-  const quota = w.key.dailyQuota;
+export function sendQuotaWarnings(ctx: Pick<AppContext, 'database' | 'mailer' | 'logger'>, warning: WarningInput): void {
+  const quota = warning.key.dailyQuota;
   const thresholds: (80 | 100)[] = [];
-  if (!w.warned80 && w.used * 100 >= quota * 80) thresholds.push(80);
-  if (!w.warned100 && w.used >= quota) thresholds.push(100);
+  if (!warning.warned80 && warning.used * 100 >= quota * 80) thresholds.push(80);
+  if (!warning.warned100 && warning.used >= quota) thresholds.push(100);
   for (const threshold of thresholds) {
     void (async () => {
-      if (!(await claimQuotaWarning(ctx.database.db, w.key.id, w.day, threshold))) return;
+      if (!(await claimQuotaWarning(ctx.database.db, warning.key.id, warning.day, threshold))) return;
       await ctx.mailer.send(
-        quotaWarningMail({ to: w.key.ownerEmail, organisationId: w.organisationId, keyName: w.key.name, displayStart: w.key.displayStart, used: w.used, quota, threshold, day: w.day }),
+        quotaWarningMail({ to: warning.key.ownerEmail, organisationId: warning.organisationId, keyName: warning.key.name, displayStart: warning.key.displayStart, used: warning.used, quota, threshold, day: warning.day }),
       );
-    })().catch((err: unknown) => ctx.logger.warn({ err, keyId: w.key.id, threshold }, 'could not send a quota warning'));
+    })().catch((err: unknown) => ctx.logger.warn({ err, keyId: warning.key.id, threshold }, 'could not send a quota warning'));
   }
 }

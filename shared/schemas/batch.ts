@@ -1,29 +1,27 @@
 import { z } from 'zod';
-import { LineRequestSchema, MatchRequestSchema, MismatchRequestSchema, ReferRequestSchema, ReflectionRequestSchema } from './calc.ts';
-import { FaultDistanceRequestSchema } from './fault.ts';
+import { CALCULATION_NAMES, CALCULATIONS, type Calculation } from '../calculations/table.ts';
 
 /** Most items one JSON batch may hold; bigger jobs stream as NDJSON. */
 export const MAX_BATCH_ITEMS = 20_000;
 
-/** The calculations a batch item may name, with the request body each takes. */
-export const BATCH_OPERATIONS = ['mismatch', 'reflection', 'line', 'refer', 'match', 'fault-distance'] as const;
-export type BatchOperation = (typeof BATCH_OPERATIONS)[number];
+type Calculations = typeof CALCULATIONS;
 
-/** For the OpenAPI document: each `op` with the body of its single endpoint. */
-export const BatchItemSchema = z
-  .discriminatedUnion('op', [
-    z.strictObject({ op: z.literal('mismatch'), input: MismatchRequestSchema }),
-    z.strictObject({ op: z.literal('reflection'), input: ReflectionRequestSchema }),
-    z.strictObject({ op: z.literal('line'), input: LineRequestSchema }),
-    z.strictObject({ op: z.literal('refer'), input: ReferRequestSchema }),
-    z.strictObject({ op: z.literal('match'), input: MatchRequestSchema }),
-    z.strictObject({ op: z.literal('fault-distance'), input: FaultDistanceRequestSchema }),
-  ])
-  .meta({
-    id: 'BatchItem',
-    description: 'One calculation: `op` is the calculation\'s name as in its path (`mismatch` = POST /api/v1/mismatch, `reflection`, `line`, `refer`, `match`, `fault-distance`) and `input` is the body that endpoint takes.',
-    example: { op: 'mismatch', input: { swr: 1.5 } },
-  });
+/** One `{ op, input }` object schema per calculation, in table order. */
+type ItemOptions<T extends readonly Calculation[]> = {
+  -readonly [K in keyof T]: T[K] extends Calculation<infer Name, infer Request> ? z.ZodObject<{ op: z.ZodLiteral<Name>; input: Request }, z.core.$strict> : never;
+};
+type BatchItemOptions = ItemOptions<Calculations>;
+
+const itemOptions = CALCULATIONS.map((c) => z.strictObject({ op: z.literal(c.name), input: c.request })) as unknown as BatchItemOptions;
+
+const [firstOp, ...otherOps] = CALCULATION_NAMES;
+
+/** For the OpenAPI document: each `op` with the body of its single endpoint, one per entry of the calculations table. */
+export const BatchItemSchema = z.discriminatedUnion('op', itemOptions).meta({
+  id: 'BatchItem',
+  description: `One calculation: \`op\` is the calculation's name as in its path (\`${firstOp}\` = POST /api/v1/${firstOp}, ${otherOps.map((op) => `\`${op}\``).join(', ')}) and \`input\` is the body that endpoint takes.`,
+  example: { op: 'mismatch', input: { swr: 1.5 } },
+});
 
 const itemsMessage = {
   min: 'send at least one item',

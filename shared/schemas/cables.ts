@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { CableSchema } from './calc.ts';
+import { CableSchema } from './calculations.ts';
 
 /** Every account-defined cable id starts with this; no catalog id does, so the two never collide. */
 export const ACCOUNT_CABLE_PREFIX = 'account-';

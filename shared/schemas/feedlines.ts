@@ -1,9 +1,9 @@
 import { z } from 'zod';
 import { FrequencyHz, ImpedanceSchema, PowerW } from './common.ts';
-import { FeedlineSectionSchema, LineSectionsSchema, ReadingSchema, ReferResultSchema } from './calc.ts';
+import { FeedlineSectionSchema, LineSectionsSchema, ReadingSchema, ReferResultSchema } from './calculations.ts';
 
-// Sections are described in calc.ts, beside LineSpec: POST /line and /refer take them inline too.
-export { FeedlineLineResultSchema, FeedlineSectionSchema, isConnectorSection, MAX_FEEDLINE_SECTIONS, type FeedlineSection } from './calc.ts';
+// Sections are described in calculations.ts, beside LineSpec: POST /line and /refer take them inline too.
+export { FeedlineLineResultSchema, FeedlineSectionSchema, isConnectorSection, MAX_FEEDLINE_SECTIONS, type FeedlineSection } from './calculations.ts';
 
 const FEEDLINE_EXAMPLE = {
   name: 'Hut to mast, 40 m dipole',

@@ -1,6 +1,6 @@
 import { z } from 'zod';
 import { ComplexSchema, ImpedanceSchema, ReflectionDetailSchema, ReturnLossOutput, SwrOutput } from './common.ts';
-import { FeedlineSectionSchema, LineOrSectionsSchema } from './calc.ts';
+import { FeedlineSectionSchema, LineOrSectionsSchema } from './calculations.ts';
 import { shapeIssue } from './issues.ts';
 
 /** Most points a JSON upload may carry (the body limit allows about this many); larger sweeps go up as files. */
@@ -164,12 +164,54 @@ export const SweepListItemSchema = z.object(sweepHeaderFields).meta({ id: 'Sweep
 
 export const SweepListSchema = z.object({ sweeps: z.array(SweepListItemSchema).meta({ description: 'Newest first.' }) }).meta({ id: 'SweepList' });
 
+/** Points of a page when `limit` is not given, and the most one page may hold. */
+export const DEFAULT_SWEEP_POINTS_PAGE = 1000;
+export const MAX_SWEEP_POINTS_PAGE = 2000;
+
+const nextCursorField = z
+  .string()
+  .nullable()
+  .meta({ description: 'Pass as `cursor` to GET /api/v1/sweeps/{id}/points for the next page; `null` after the last point. Opaque; it stays valid as long as the sweep exists (stored points never change).', example: 'cDEwMDA' });
+
 export const SweepSchema = z
   .object({
     ...sweepHeaderFields,
     line: z.array(FeedlineSectionSchema).nullable().meta({ description: 'The sections the sweep was moved through, from the transmitter end, as they were at upload (the points were moved then; later changes to a feed line or cable do not alter them); `null` when not moved.' }),
-    points: z.array(AnalysedPointSchema),
+    points: z
+      .array(AnalysedPointSchema)
+      .optional()
+      .meta({ description: `The first page of analysed points (${DEFAULT_SWEEP_POINTS_PAGE} unless \`limit\` says otherwise; \`summary.pointCount\` is the total). Absent with \`fields=summary\`.` }),
+    nextCursor: nextCursorField.optional().meta({ description: 'Where the next page starts (GET /api/v1/sweeps/{id}/points?cursor=…); `null` when the first page holds every point. Absent with `fields=summary`.' }),
   })
-  .meta({ id: 'Sweep', description: 'A stored sweep with every analysed point.' });
+  .meta({ id: 'Sweep', description: 'A stored sweep: summary, verdict and the first page of analysed points.' });
+
+export const SweepPointsPageSchema = z
+  .object({
+    points: z.array(AnalysedPointSchema).meta({ description: 'Analysed points by increasing frequency.' }),
+    nextCursor: nextCursorField,
+  })
+  .meta({ id: 'SweepPointsPage', description: 'One page of a stored sweep\'s analysed points.' });
+
+const pageLimit = z.coerce
+  .number()
+  .int()
+  .min(1)
+  .max(MAX_SWEEP_POINTS_PAGE)
+  .optional()
+  .meta({ description: `Points per page, 1 to ${MAX_SWEEP_POINTS_PAGE} (default ${DEFAULT_SWEEP_POINTS_PAGE}).`, example: DEFAULT_SWEEP_POINTS_PAGE });
+
+export const SweepReadQuerySchema = z.strictObject({
+  fields: z.enum(['summary']).optional().meta({ description: '`summary`: the sweep without points.' }),
+  limit: pageLimit,
+});
+
+export const SweepPointsQuerySchema = z.strictObject({
+  limit: pageLimit,
+  cursor: z.string().max(64).optional().meta({ description: '`nextCursor` of the previous page; leave out for the first page.' }),
+  format: z
+    .enum(['json', 'csv', 'ndjson'])
+    .optional()
+    .meta({ description: 'Instead of `Accept`: `json` (one page), `csv` or `ndjson` (every point, streamed; `limit` and `cursor` do not apply).' }),
+});
 
 export const SweepIdParamsSchema = z.object({ id: z.uuid({ message: 'sweep ids are UUIDs, as listed by GET /api/v1/sweeps' }) });

@@ -198,19 +198,27 @@ export function analysedPointsToCsv(
   points: readonly AnalysedPoint[],
   options: { sweepName?: string; delimiter?: ',' | ';' } = {},
 ): string {
+  return analysedCsvHeader(options) + analysedCsvRows(points, options);
+}
+
+/** The header row of analysedPointsToCsv, with its line end: the start of an export written in pieces. */
+export function analysedCsvHeader(options: { sweepName?: string; delimiter?: ',' | ';' } = {}): string {
   const d = options.delimiter ?? ',';
-  const named = options.sweepName !== undefined;
-  const prefix = named ? `${csvCell(options.sweepName as string, d)}${d}` : '';
-  const rows: string[] = [(named ? ['sweep', ...ANALYSED_CSV_COLUMNS] : [...ANALYSED_CSV_COLUMNS]).join(d)];
+  return `${(options.sweepName !== undefined ? ['sweep', ...ANALYSED_CSV_COLUMNS] : [...ANALYSED_CSV_COLUMNS]).join(d)}\r\n`;
+}
+
+/** The rows of analysedPointsToCsv for some of the points, each with its line end: the rest of an export written in pieces. */
+export function analysedCsvRows(points: readonly AnalysedPoint[], options: { sweepName?: string; delimiter?: ',' | ';' } = {}): string {
+  const d = options.delimiter ?? ',';
+  const prefix = options.sweepName !== undefined ? `${csvCell(options.sweepName, d)}${d}` : '';
+  let out = '';
   for (const p of points) {
     const z = p.loadOhm;
     const g = p.reflection;
-    rows.push(
+    out +=
       prefix +
-        [p.frequencyHz, z === null ? null : z.re, z === null ? null : z.im, g.re, g.im, g.magnitude, g.angleDeg, p.swr, p.returnLossDb]
-          .map((v) => csvCell(v, d))
-          .join(d),
-    );
+      [p.frequencyHz, z === null ? null : z.re, z === null ? null : z.im, g.re, g.im, g.magnitude, g.angleDeg, p.swr, p.returnLossDb].map((v) => csvCell(v, d)).join(d) +
+      '\r\n';
   }
-  return `${rows.join('\r\n')}\r\n`;
+  return out;
 }

@@ -3,7 +3,7 @@ import type { Complex } from '../rf/complex.ts';
 import { SPEED_OF_LIGHT_M_PER_S } from '../rf/constants.ts';
 import { RfInputError } from '../rf/errors.ts';
 import { goldenMax } from '../rf/golden-section.ts';
-import { reflectionAgainst, type SweepPointInput } from './points.ts';
+import { reflectionAgainst } from './points.ts';
 
 // Frequency-domain reflectometry in band-pass mode: the reflection measured over a band of evenly
 // spaced frequencies, windowed and zero-padded, is turned into a response against round-trip time
@@ -117,15 +117,27 @@ export interface ReflectionSample {
 }
 
 /**
- * The reflections of sweep points against a real reference R: Γ = (Z − R)/(Z + R), an open
- * circuit (`loadOhm: null`) Γ = 1.
+ * A measured point as it was given: an impedance (ohms as a number when resistive; null for an open
+ * circuit), or the reflection Γ itself against the sweep's reference.
+ */
+export interface MeasuredPoint {
+  frequencyHz: number;
+  loadOhm?: Complex | number | null | undefined;
+  reflection?: Complex | undefined;
+}
+
+/**
+ * The reflections of sweep points against a real reference R: Γ as given, else Γ = (Z − R)/(Z + R),
+ * an open circuit (`loadOhm: null`) Γ = 1. Serves the JSON points of a request and a stored sweep's
+ * points alike.
  * @example reflectionSamples([{ frequencyHz: 1e6, loadOhm: { re: 75, im: 0 } }], 50)[0].reflection // { re: 0.2, im: 0 }
  */
-export function reflectionSamples(points: readonly SweepPointInput[], referenceOhm: number): ReflectionSample[] {
+export function reflectionSamples(points: readonly MeasuredPoint[], referenceOhm: number): ReflectionSample[] {
   return points.map((p, k) => {
-    if (p.loadOhm === null) return { frequencyHz: p.frequencyHz, reflection: { re: 1, im: 0 } };
-    const reflection = reflectionAgainst(p.loadOhm, referenceOhm);
-    if (!reflection) throw new RfInputError(`points.${k}.loadOhm`, `A load of −${referenceOhm} Ω has no reflection coefficient against ${referenceOhm} Ω; a passive load has a resistance of 0 Ω or more.`);
+    if (p.reflection !== undefined) return { frequencyHz: p.frequencyHz, reflection: p.reflection };
+    if (p.loadOhm === null || p.loadOhm === undefined) return { frequencyHz: p.frequencyHz, reflection: { re: 1, im: 0 } };
+    const reflection = reflectionAgainst(typeof p.loadOhm === 'number' ? { re: p.loadOhm, im: 0 } : p.loadOhm, referenceOhm);
+    if (!reflection) throw new RfInputError(`points.${k}.loadOhm`, `This load has no reflection coefficient against ${referenceOhm} Ω; a passive load has a resistance of 0 Ω or more.`);
     return { frequencyHz: p.frequencyHz, reflection };
   });
 }

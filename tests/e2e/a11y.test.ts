@@ -86,7 +86,7 @@ for (const theme of ['light', 'dark'] as const) {
       const { page } = browser;
       await signIn(page);
       const findings: Finding[] = [];
-      for (const pathname of ['/', '/try', '/sweeps', '/feed-lines', '/cables', '/keys', '/usage', '/not-allowed', '/admin']) {
+      for (const pathname of ['/', '/try', '/sweeps', '/feedlines', '/cables', '/keys', '/usage', '/not-allowed', '/admin']) {
         await visit(page, pathname, theme);
         findings.push(...(await audit(page, pathname)));
       }

@@ -143,7 +143,7 @@ describe.skipIf(!serverRunning)('the console in Chromium, against the server npm
       ['/', 'Status'],
       ['/usage', 'Usage'],
       ['/cables', 'Cables'],
-      ['/feed-lines', 'Feed lines'],
+      ['/feedlines', 'Feed lines'],
     ] as const) {
       await page.goto(`${baseUrl}${pathname}`);
       await page.getByRole('heading', { name: heading, level: 1 }).waitFor();

@@ -121,7 +121,7 @@ for (const [label, viewport] of [
       const pages: [string, string, string][] = [
         ['/', 'Status', 'status'],
         ['/sweeps', 'Sweeps', 'sweeps'],
-        ['/feed-lines', 'Feed lines', 'feed-lines'],
+        ['/feedlines', 'Feed lines', 'feedlines'],
         ['/cables', 'Cables', 'cables'],
         ['/keys', 'Keys', 'keys'],
         ['/usage', 'Usage', 'usage'],

@@ -74,7 +74,7 @@ export default async function setup(project: TestProject): Promise<(() => Promis
   let log = '';
   const child = spawn(process.execPath, [path.join(root, 'scripts', 'start.mjs')], {
     cwd: root,
-    env: { ...process.env, DATABASE_URL: `${serverUrl}/${database}`, PORT: String(port), HOST: '127.0.0.1', LOG_LEVEL: 'warn' },
+    env: { ...process.env, DATABASE_URL: `${serverUrl}/${database}`, PORT: String(port), HOST: '127.0.0.1', LOG_LEVEL: 'warn', SHED_EVENT_LOOP_DELAY_MS: '0', SHED_MAX_IN_FLIGHT: '0' },
     stdio: ['ignore', 'pipe', 'pipe'],
   });
   const keep = (chunk: Buffer) => {

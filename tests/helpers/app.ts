@@ -5,15 +5,15 @@ import request from 'supertest';
 import type TestAgent from 'supertest/lib/agent.js';
 import { createApp } from '../../server/app.ts';
 import { testConfig, type AppConfig } from '../../server/config.ts';
-import { calculationGuard } from '../../server/auth/caller.ts';
-import { keyServicesFor } from '../../server/auth/key-services.ts';
+import { calculationGuard, Meter } from '../../server/quota/meter.ts';
+import { startKeyServices, type KeyServices } from '../../server/quota/key-services.ts';
 import { sessionMiddleware } from '../../server/auth/session.ts';
 import { systemClock, type AppContext, type Clock } from '../../server/context.ts';
 import { openDatabase, type Database } from '../../server/db/client.ts';
 import { problemErrorHandler } from '../../server/http/error-middleware.ts';
 import type { Mailer } from '../../server/mail/mailer.ts';
 import { users } from '../../server/db/schema.ts';
-import { seedDemo } from '../../server/db/seed.ts';
+import { seedDemo } from '../../server/demo/seed.ts';
 import { startMailCapture } from '../../server/mail/capture.ts';
 import { createMailer } from '../../server/mail/mailer.ts';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
@@ -87,10 +87,11 @@ export async function createTestApp(overrides: Partial<AppConfig> = {}, options:
     },
     signIn,
     /** See settleQuota: the database then shows exactly the units and usage spent so far. */
-    settle: () => settleQuota(database),
+    settle: () => settleQuota(app),
     adminAgent: () => signIn(config.demoAdmin.email, config.demoAdmin.password),
     developerAgent: () => signIn(TEST_DEVELOPER.email, TEST_DEVELOPER.password),
     close: async () => {
+      await app.close();
       mailer.close();
       await capture.close();
       await database.drop();
@@ -101,18 +102,24 @@ export async function createTestApp(overrides: Partial<AppConfig> = {}, options:
 export type TestApp = Awaited<ReturnType<typeof createTestApp>>;
 
 /**
- * Gives back the quota units the app's process reserved ahead of need and writes its buffered usage
+ * Gives back the quota units an app reserved ahead of need and writes its buffered usage
  * (server/quota/key-leases.ts), so that key_quota_days and usage_daily show exactly what was spent.
  */
-export async function settleQuota(database: Database): Promise<void> {
-  await keyServicesFor(database, pino({ level: 'silent' })).leases.settle();
+export async function settleQuota(app: { keyServices: KeyServices }): Promise<void> {
+  await app.keyServices.leases.settle();
 }
 
 /** An app whose database is unreachable (a closed loopback port), for 503 paths. */
 export function createAppWithoutDatabase() {
   const database = openDatabase('postgres://postgres@127.0.0.1:9/unreachable', { max: 1 });
   const app = createApp({ database, config: testConfig() });
-  return { app, close: () => database.close() };
+  return {
+    app,
+    close: async () => {
+      await app.close();
+      await database.close();
+    },
+  };
 }
 
 /** A clock tests can move: `clock.set('2026-03-14T23:59:00Z')`, `clock.advance(ms)`. */
@@ -120,6 +127,7 @@ export function manualClock(start: string | Date = '2026-03-14T12:00:00Z') {
   let now = new Date(start);
   return {
     now: () => new Date(now),
+    nowMs: () => now.getTime(),
     set(at: string | Date) {
       now = new Date(at);
     },
@@ -129,20 +137,43 @@ export function manualClock(start: string | Date = '2026-03-14T12:00:00Z') {
   };
 }
 
+/** A metered test app and what it started (see createApp's GammalineApp). */
+export type MeteredApp = Express & { readonly keyServices: KeyServices; close(): Promise<void>; settle(): Promise<void> };
+
+/**
+ * A clock that runs with real time plus an offset tests can move (`clock.advance(ms)`): time passes as
+ * usual for timers and the database, and a test skips ahead instead of waiting.
+ */
+export function offsetClock(offsetMs = 0) {
+  let offset = offsetMs;
+  return {
+    now: () => new Date(Date.now() + offset),
+    nowMs: () => Date.now() + offset,
+    advance(ms: number) {
+      offset += ms;
+    },
+  };
+}
+
 /**
  * A minimal app with one metered route, `POST /metered` (body `{ units?: number }`), guarded exactly
  * like a calculation route. Tests use it to exercise the meter without depending on the calculations,
- * and to run several "server processes" (one per pool) against one database.
+ * and to run several "server processes" against one database: each app has its own key services
+ * (listener, leases), like a process of its own. `close()` stops them; `settle()` as settleQuota.
  */
-export function createMeteredApp(deps: { database: Database; config: AppConfig; mailer?: Mailer; clock?: Clock }): Express {
+export function createMeteredApp(deps: { database: Database; config: AppConfig; mailer?: Mailer; clock?: Clock }): MeteredApp {
   const logger = pino({ level: 'silent' });
-  const ctx: AppContext = {
+  const clock = deps.clock ?? systemClock;
+  const keyServices = startKeyServices({ database: deps.database, logger, clock });
+  const base = {
     database: deps.database,
     config: deps.config,
-    clock: deps.clock ?? systemClock,
+    clock,
     logger,
     mailer: deps.mailer ?? { send: async () => {}, close: () => {} },
+    keyServices,
   };
+  const ctx: AppContext = { ...base, meter: new Meter(base) };
   const app = express();
   app.use(express.json());
   app.use(sessionMiddleware(ctx));
@@ -151,5 +182,5 @@ export function createMeteredApp(deps: { database: Database; config: AppConfig; 
     res.json({ ok: true });
   });
   app.use(problemErrorHandler);
-  return app;
+  return Object.assign(app, { keyServices, close: () => keyServices.stop(), settle: () => keyServices.leases.settle() });
 }

@@ -160,7 +160,7 @@ export interface ServerProcess {
 export async function startServerProcess(options: { databaseUrl: string; env?: Record<string, string>; readyWithinMs?: number }): Promise<ServerProcess> {
   const child = spawn(process.execPath, ['--import', 'tsx', 'server/index.ts'], {
     cwd: ROOT,
-    env: { ...process.env, NODE_ENV: 'development', HOST: '127.0.0.1', PORT: '0', LOG_LEVEL: 'silent', WORKERS: '1', ...options.env, DATABASE_URL: options.databaseUrl },
+    env: { ...process.env, NODE_ENV: 'development', HOST: '127.0.0.1', PORT: '0', LOG_LEVEL: 'silent', WORKERS: '1', SHED_EVENT_LOOP_DELAY_MS: '0', SHED_MAX_IN_FLIGHT: '0', ...options.env, DATABASE_URL: options.databaseUrl },
     stdio: ['ignore', 'pipe', 'pipe'],
   });
   let output = '';

@@ -7,7 +7,7 @@ import { attenuatorSection, cascadeLines, lineFromCable } from '../../shared/rf/
 import { referReading } from '../../shared/rf/refer.ts';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
 import { organisations, users } from '../../server/db/schema.ts';
-import { DEMO_FEEDLINE, seedDemo } from '../../server/db/seed.ts';
+import { DEMO_FEEDLINE, seedDemo } from '../../server/demo/seed.ts';
 import { feedlines as feedlinesTable, sweeps as sweepsTable } from '../../server/db/schema.ts';
 import { createTestApp, type TestApp } from '../helpers/app.ts';
 

@@ -177,6 +177,48 @@ describe('changing limits', () => {
   });
 });
 
+describe('browser origins of a key', () => {
+  it('are set when the key is issued, shown with it, and replaced later by its owner', async () => {
+    const created = await developer.post('/api/v1/keys').send({ name: 'contest page', allowedOrigins: ['https://log.example.org', 'http://127.0.0.1:8088'] }).expect(201);
+    expect(created.body.key.allowedOrigins).toEqual(['https://log.example.org', 'http://127.0.0.1:8088']);
+    const id = created.body.key.id as string;
+    const listed = await developer.get('/api/v1/keys').expect(200);
+    expect(listed.body.keys.find((k: { id: string }) => k.id === id).allowedOrigins).toEqual(['https://log.example.org', 'http://127.0.0.1:8088']);
+
+    const changed = await developer.patch(`/api/v1/keys/${id}`).send({ allowedOrigins: ['https://monitor.example.net'] }).expect(200);
+    expect(changed.body.allowedOrigins).toEqual(['https://monitor.example.net']);
+    const read = await admin.get(`/api/v1/keys/${id}`).expect(200);
+    expect(read.body.allowedOrigins).toEqual(['https://monitor.example.net']);
+    const cleared = await developer.patch(`/api/v1/keys/${id}`).send({ allowedOrigins: [] }).expect(200);
+    expect(cleared.body.allowedOrigins).toEqual([]);
+  });
+
+  it('default to none', async () => {
+    const created = await developer.post('/api/v1/keys').send({ name: 'server only' }).expect(201);
+    expect(created.body.key.allowedOrigins).toEqual([]);
+  });
+
+  it('must be exact origins: other values answer 422 with the form browsers send', async () => {
+    const slash = await developer.post('/api/v1/keys').send({ name: 'x', allowedOrigins: ['https://Log.Example.org/'] }).expect(422);
+    expect(slash.body.errors).toEqual([expect.objectContaining({ field: 'allowedOrigins.0', message: expect.stringContaining('https://log.example.org') })]);
+    const path = await developer.patch(`/api/v1/keys/${ctx.seed.developerKeyId}`).send({ allowedOrigins: ['https://log.example.org:443/page'] }).expect(422);
+    expect(path.body.errors[0].message).toContain('https://log.example.org ');
+    for (const bad of ['log.example.org', 'ftp://files.example.org', '*', 'null']) {
+      const res = await developer.post('/api/v1/keys').send({ name: 'x', allowedOrigins: [bad] }).expect(422);
+      expect(res.body.errors[0].message, bad).toMatch(/scheme:\/\/host/);
+    }
+    await developer.post('/api/v1/keys').send({ name: 'x', allowedOrigins: ['https://a.example', 'https://a.example'] }).expect(422);
+    const many = Array.from({ length: 21 }, (_, i) => `https://site${i}.example`);
+    await developer.post('/api/v1/keys').send({ name: 'x', allowedOrigins: many }).expect(422);
+    await developer.post('/api/v1/keys').send({ name: 'x', allowedOrigins: many.slice(0, 20) }).expect(201);
+  });
+
+  it('must be a list of strings: anything else answers 400', async () => {
+    await developer.post('/api/v1/keys').send({ name: 'x', allowedOrigins: 'https://log.example.org' }).expect(400);
+    await developer.post('/api/v1/keys').send({ name: 'x', allowedOrigins: [42] }).expect(400);
+  });
+});
+
 describe('refused keys all look the same (RFC 6750 §3)', () => {
   it('answers missing, malformed, unknown, revoked and expired keys with one identical 401', async () => {
     const revoked = await developer.post('/api/v1/keys').send({ name: 'to revoke' }).expect(201);

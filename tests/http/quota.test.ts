@@ -20,8 +20,12 @@ beforeAll(async () => {
   admin = await ctx.adminAgent();
 });
 afterAll(async () => {
+  await metered.close();
   await ctx.close();
 });
+
+/** Both apps (the metered probe and the test app) give reserved units back and write their usage. */
+const settle = () => Promise.all([metered.settle(), ctx.settle()]);
 
 async function newKey(limits: { dailyQuota?: number; burstPerMinute?: number }, name = 'probe') {
   const res = await admin.post('/api/v1/keys').send({ name, ownerId: ctx.seed.developerId, ...limits }).expect(201);
@@ -70,7 +74,7 @@ describe('the daily quota', () => {
     const refused = await call(key.bearer, 3).expect(429);
     expect(refused.body.detail).toMatch(/needs 3 units and 2 remain/);
     await call(key.bearer, 2).expect(200);
-    await ctx.settle();
+    await settle();
     const used = await ctx.database.db.execute(sql`select used from key_quota_days where key_id = ${key.id}::uuid`);
     expect(used.rows[0]).toEqual({ used: 5 });
   });
@@ -114,7 +118,7 @@ describe('the per-minute burst limit', () => {
     expect(refused.headers.ratelimit).toMatch(/"burst"; r=0; t=\d+/);
     expect(refused.body.detail).toMatch(/More than 3 requests in a minute/);
     // A burst refusal spends no daily units.
-    await ctx.settle();
+    await settle();
     const used = await ctx.database.db.execute(sql`select used from key_quota_days where key_id = ${key.id}::uuid`);
     expect(used.rows[0]).toEqual({ used: 3 });
   });
@@ -133,7 +137,7 @@ describe('usage is recorded per key, endpoint and day', () => {
     const key = await newKey({ dailyQuota: 100 });
     await call(key.bearer, 4).expect(200);
     await call(key.bearer, 1).expect(200);
-    await ctx.settle();
+    await settle();
     const rows = await ctx.database.db.execute(sql`select endpoint, to_char(day, 'YYYY-MM-DD') as day, units, requests from usage_daily where key_id = ${key.id}::uuid`);
     expect(rows.rows).toEqual([{ endpoint: 'probe', day: '2026-03-14', units: 5, requests: 2 }]);
   });
@@ -144,7 +148,7 @@ describe('usage is recorded per key, endpoint and day', () => {
     const res = await request(metered).post('/metered').set('Cookie', cookie).set('X-CSRF-Token', signIn.body.csrfToken).send({ units: 2 }).expect(200);
     expect(res.headers['ratelimit-policy']).toMatch(/^"burst"; q=120; w=60/);
     expect(res.headers['ratelimit-policy']).not.toContain('daily');
-    await ctx.settle();
+    await settle();
     const rows = await ctx.database.db.execute(sql`select user_id, units, requests from usage_daily where key_id is null`);
     expect(rows.rows).toEqual([{ user_id: ctx.seed.adminId, units: 2, requests: 1 }]);
     // A console write without the CSRF token is refused before anything is counted.

@@ -90,6 +90,7 @@ function urlFor(r: Route, id?: string): string {
     '/api/v1/feedlines/{id}/line': a.feedline,
     '/api/v1/feedlines/{id}/refer': a.feedline,
     '/api/v1/sweeps/{id}': a.sweep,
+    '/api/v1/sweeps/{id}/points': a.sweep,
     '/api/v1/sweeps/{id}/points.csv': a.sweep,
     '/api/v1/sweeps/{id}/fault-distance': a.faultSweep,
     '/api/v1/keys/{id}': a.key,

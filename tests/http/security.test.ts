@@ -30,6 +30,7 @@ beforeAll(async () => {
   logged = createApp({ database: ctx.database, config: ctx.config, mailer: ctx.mailer, logger: pino({ level: 'trace' }, sink) });
 });
 afterAll(async () => {
+  await logged?.close();
   await ctx?.close();
 });
 
@@ -200,9 +201,13 @@ describe('security headers on every surface', () => {
 
   it('adds Strict-Transport-Security in production and leaves it out on local plain HTTP', async () => {
     const production = createApp({ database: ctx.database, config: testConfig({ ...ctx.config, mode: 'production' }), logger: pino({ level: 'silent' }) });
-    for (const path of ['/healthz', '/api/v1/openapi.json']) {
-      expect((await request(production).get(path)).headers['strict-transport-security'], path).toBe('max-age=31536000; includeSubDomains');
-      expect((await request(ctx.app).get(path)).headers['strict-transport-security'], path).toBeUndefined();
+    try {
+      for (const path of ['/healthz', '/api/v1/openapi.json']) {
+        expect((await request(production).get(path)).headers['strict-transport-security'], path).toBe('max-age=31536000; includeSubDomains');
+        expect((await request(ctx.app).get(path)).headers['strict-transport-security'], path).toBeUndefined();
+      }
+    } finally {
+      await production.close();
     }
   });
 });

@@ -4,7 +4,7 @@ import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
 import { organisations, users } from '../../server/db/schema.ts';
-import { DEMO_FEEDLINE } from '../../server/db/seed.ts';
+import { DEMO_FEEDLINE } from '../../server/demo/seed.ts';
 import { createTestApp, type TestApp } from '../helpers/app.ts';
 import { dipoleImpedance, dipoleTouchstone, DIPOLE_FREQUENCIES_HZ, type Format, type Parameter, type Unit } from '../unit/sweep/dipole.ts';
 

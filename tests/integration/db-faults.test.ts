@@ -8,12 +8,12 @@ import { pino } from 'pino';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 // @ts-expect-error plain ESM script without types
 import { ensureDatabase, startCluster } from '../../scripts/lib/postgres.mjs';
-import { createApp } from '../../server/app.ts';
+import { createApp, type GammalineApp } from '../../server/app.ts';
 import { testConfig } from '../../server/config.ts';
 import { openDatabase, type Database } from '../../server/db/client.ts';
 import { migrateDatabase } from '../../server/db/migrate.ts';
 import { keyQuotaDays, usageDaily, users } from '../../server/db/schema.ts';
-import { seedDemo } from '../../server/db/seed.ts';
+import { seedDemo } from '../../server/demo/seed.ts';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
 import { utcDay } from '../../server/quota/day.ts';
 import { MAX_PREFETCH } from '../../server/quota/key-leases.ts';
@@ -34,6 +34,7 @@ let cluster: Cluster | undefined;
 let targetPort = 0;
 let relay: net.Server;
 let database: Database;
+let app: GammalineApp | undefined;
 let live: Awaited<ReturnType<typeof listen>>;
 let keySecret: string;
 let keyId: string;
@@ -89,11 +90,13 @@ beforeAll(async () => {
   );
   keySecret = key.secret;
   keyId = key.key.id;
-  live = await listen(createApp({ database, config, logger: pino({ level: 'silent' }) }));
+  app = createApp({ database, config, logger: pino({ level: 'silent' }) });
+  live = await listen(app);
 }, 120_000);
 
 afterAll(async () => {
   await live?.close();
+  await app?.close();
   await database?.close().catch(() => {});
   relay?.close();
   stopPostgres();
@@ -146,7 +149,7 @@ describe('PostgreSQL stopped under load', () => {
     // the admitted calls, and the quota exactly those too, unless a reservation committed in the database
     // and the answer was lost when it died: such an in-doubt lease (at most what the waiting calls needed
     // plus MAX_PREFETCH) is the only slack allowed, and it errs on the side of never overspending.
-    await settleQuota(database);
+    await settleQuota(app!);
     const succeeded = answers.filter((a) => a.status === 200).length;
     const day = utcDay(new Date());
     const [quota] = await database.db.select({ used: keyQuotaDays.used }).from(keyQuotaDays).where(and(eq(keyQuotaDays.keyId, keyId), eq(keyQuotaDays.day, day)));

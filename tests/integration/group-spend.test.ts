@@ -5,7 +5,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
 import { openDatabase, type Database } from '../../server/db/client.ts';
 import { spendKeyUnitsGroup } from '../../server/quota/quota.repository.ts';
-import { createMeteredApp, createTestApp, settleQuota, type TestApp } from '../helpers/app.ts';
+import { createMeteredApp, createTestApp, settleQuota, type MeteredApp, type TestApp } from '../helpers/app.ts';
 
 // The database's group statement (NDJSON blocks) decides every spend of a group first fit in arrival
 // order; two processes metering through quota leases never spend more than the quota or the burst
@@ -13,6 +13,8 @@ import { createMeteredApp, createTestApp, settleQuota, type TestApp } from '../h
 
 let ctx: TestApp;
 const pools: Database[] = [];
+/** One metered app per pool: each stands in for a server process. */
+const apps: MeteredApp[] = [];
 const servers: Server[] = [];
 const urls: string[] = [];
 const DAY = '2026-03-14';
@@ -28,11 +30,14 @@ beforeAll(async () => {
   for (let i = 0; i < 2; i++) {
     const database = openDatabase(ctx.database.url, { max: 5 });
     pools.push(database);
-    urls.push(await listen(createMeteredApp({ database, config: ctx.config })));
+    const app = createMeteredApp({ database, config: ctx.config });
+    apps.push(app);
+    urls.push(await listen(app));
   }
 });
 afterAll(async () => {
   await Promise.all(servers.map((s) => new Promise((r) => s.close(r))));
+  await Promise.all(apps.map((app) => app.close()));
   await Promise.all(pools.map((p) => p.close()));
   await ctx.close();
 });
@@ -95,7 +100,7 @@ describe('many concurrent multi-unit requests on two instances', () => {
     expect(admittedUnits).toBeLessThanOrEqual(500);
     // Requests of 1 unit keep arriving after the quota is nearly spent, so at most 3 units stay unused.
     expect(admittedUnits).toBeGreaterThanOrEqual(497);
-    await Promise.all(pools.map(settleQuota));
+    await Promise.all(apps.map(settleQuota));
     const spent = await ctx.database.db.execute(sql`select used from key_quota_days where key_id = ${key.key.id}::uuid`);
     expect(spent.rows).toEqual([{ used: admittedUnits }]);
     expect(await usage(key.key.id)).toEqual([{ endpoint: 'probe', units: admittedUnits, requests: admitted }]);
@@ -114,7 +119,7 @@ describe('coalesced burst hits', () => {
     );
     expect(statuses.filter((s) => s === 200)).toHaveLength(37);
     expect(statuses.filter((s) => s === 429)).toHaveLength(83);
-    await Promise.all(pools.map(settleQuota));
+    await Promise.all(apps.map(settleQuota));
     const spent = await ctx.database.db.execute(sql`select used from key_quota_days where key_id = ${key.key.id}::uuid`);
     expect(spent.rows).toEqual([{ used: 37 }]);
   });

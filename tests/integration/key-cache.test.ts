@@ -1,21 +1,19 @@
 import { createServer, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { sql } from 'drizzle-orm';
-import { pino } from 'pino';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createKey, revokeKey } from '../../server/api/v1/keys/keys.service.ts';
-import { KEY_LISTENER_APPLICATION, keyServicesFor } from '../../server/auth/key-services.ts';
+import { KEY_LISTENER_APPLICATION } from '../../server/quota/key-services.ts';
 import { openDatabase, type Database } from '../../server/db/client.ts';
 import { users } from '../../server/db/schema.ts';
-import { createMeteredApp, createTestApp, type TestApp } from '../helpers/app.ts';
+import { createMeteredApp, createTestApp, type MeteredApp, type TestApp } from '../helpers/app.ts';
 
 // Verified keys are cached per process; key and member changes reach every process through
 // PostgreSQL LISTEN/NOTIFY. Two app instances on two pools stand in for two server processes.
 
-const silent = pino({ level: 'silent' });
 let ctx: TestApp;
 let admin: Awaited<ReturnType<TestApp['adminAgent']>>;
-const instances: { database: Database; url: string }[] = [];
+const instances: { database: Database; app: MeteredApp; url: string }[] = [];
 const servers: Server[] = [];
 
 function listen(app: Parameters<typeof createServer>[1]): Promise<string> {
@@ -38,15 +36,16 @@ beforeAll(async () => {
   admin = await ctx.adminAgent();
   for (let i = 0; i < 2; i++) {
     const database = openDatabase(ctx.database.url, { max: 5 });
-    const url = await listen(createMeteredApp({ database, config: ctx.config }));
-    instances.push({ database, url });
+    const app = createMeteredApp({ database, config: ctx.config });
+    const url = await listen(app);
+    instances.push({ database, app, url });
     // The listener connects in the background; tests start once both processes hear announcements.
-    const services = keyServicesFor(database, silent);
-    await until(() => services.listener.healthy, 5_000);
+    await until(() => app.keyServices.listener.healthy, 5_000);
   }
 });
 afterAll(async () => {
   await Promise.all(servers.map((s) => new Promise((r) => s.close(r))));
+  await Promise.all(instances.map((i) => i.app.close()));
   await Promise.all(instances.map((i) => i.database.close()));
   await ctx.close();
 });
@@ -61,7 +60,7 @@ async function status(url: string, secret: string, units = 1): Promise<number> {
   return res.status;
 }
 
-const cached = (i: number) => keyServicesFor(instances[i]!.database, silent).cache.size;
+const cached = (i: number) => instances[i]!.app.keyServices.cache.size;
 
 describe('a change is announced to every process', () => {
   it('refuses a revoked key on both instances within a second, although both had it cached', async () => {
@@ -96,6 +95,27 @@ describe('a change is announced to every process', () => {
     for (const { url } of instances) await until(async () => (await status(url, key.secret)) === 200, 1_000);
   });
 
+  it('applies a changed origin list on both instances within a second, like a revocation', async () => {
+    const fromPage = async (url: string, secret: string, origin: string) => {
+      const res = await fetch(`${url}/metered`, { method: 'POST', headers: { Authorization: `Bearer ${secret}`, 'Content-Type': 'application/json', Origin: origin }, body: '{}' });
+      await res.arrayBuffer();
+      return res.status;
+    };
+    const key = await createKey(
+      ctx.database.db,
+      { organisationId: ctx.seed.organisationId, ownerId: ctx.seed.developerId, name: 'browser page', note: '', allowedOrigins: ['https://log.example.org'], actor: { userId: null, label: 'test' } },
+      new Date(),
+    );
+    for (const { url } of instances) expect(await fromPage(url, key.secret, 'https://log.example.org')).toBe(200);
+
+    await admin.patch(`/api/v1/keys/${key.key.id}`).send({ allowedOrigins: ['https://monitor.example.net'] }).expect(200);
+    for (const { url } of instances) {
+      const tookMs = await until(async () => (await fromPage(url, key.secret, 'https://log.example.org')) === 403, 1_000);
+      expect(tookMs).toBeLessThan(1_000);
+      expect(await fromPage(url, key.secret, 'https://monitor.example.net')).toBe(200);
+    }
+  });
+
   it('applies a lowered quota on the next request of either instance', async () => {
     const key = await newKey('lowered', ctx.seed.developerId, { dailyQuota: 100, burstPerMinute: 10_000 });
     expect(await status(instances[0]!.url, key.secret, 3)).toBe(200);
@@ -111,7 +131,7 @@ describe('a change is announced to every process', () => {
 describe('while announcements may be missed', () => {
   it('empties the cache when the listening connection is lost, so a change made meanwhile is seen after reconnecting', async () => {
     const key = await newKey('unannounced');
-    const { url, database } = instances[0]!;
+    const { url, app } = instances[0]!;
     expect(await status(url, key.secret)).toBe(200);
 
     // A revocation that announces nothing (triggers off) stands in for an announcement lost in transit.
@@ -122,13 +142,13 @@ describe('while announcements may be missed', () => {
     // The cache answers for the key: the database is not asked again while the listener is healthy.
     expect(await status(url, key.secret)).toBe(200);
 
-    const services = keyServicesFor(database, silent);
+    const services = app.keyServices;
     await ctx.database.db.execute(sql`select pg_terminate_backend(pid) from pg_stat_activity where application_name = ${KEY_LISTENER_APPLICATION} and datname = current_database()`);
     await until(async () => (await status(url, key.secret)) === 401, 1_000);
     await until(() => services.listener.healthy, 5_000);
     expect(await status(url, key.secret)).toBe(401);
     // The other instance lost its connection too and reconnects on its own.
-    await until(() => keyServicesFor(instances[1]!.database, silent).listener.healthy, 5_000);
+    await until(() => instances[1]!.app.keyServices.listener.healthy, 5_000);
   });
 });
 
@@ -140,18 +160,20 @@ describe('"last used" is written behind, in one statement per interval', () => {
 
     const sent = Date.now();
     expect(await status(instances[0]!.url, key.secret)).toBe(200);
-    await keyServicesFor(instances[0]!.database, silent).lastUsed.flush();
+    await instances[0]!.app.keyServices.lastUsed.flush();
 
     const after = await admin.get(`/api/v1/keys/${key.key.id}`).expect(200);
     expect(Date.parse(after.body.lastUsedAt)).toBeGreaterThanOrEqual(sent - 1_000);
     expect(Date.parse(after.body.lastUsedAt)).toBeLessThanOrEqual(Date.now());
   });
 
-  it('writes pending "last used" times when the process shuts its pool down', async () => {
+  it('writes pending "last used" times when the app is closed on shutdown', async () => {
     const key = await newKey('flushed on shutdown');
     const database = openDatabase(ctx.database.url, { max: 2 });
-    const url = await listen(createMeteredApp({ database, config: ctx.config }));
+    const app = createMeteredApp({ database, config: ctx.config });
+    const url = await listen(app);
     expect(await status(url, key.secret)).toBe(200);
+    await app.close();
     await database.close();
 
     const rows = await ctx.database.db.execute<{ used: boolean }>(sql`select last_used_at is not null as used from api_keys where id = ${key.key.id}::uuid`);

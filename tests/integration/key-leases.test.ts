@@ -1,12 +1,13 @@
 import { sql } from 'drizzle-orm';
 import { pino } from 'pino';
-import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
-import { keyServicesFor, type KeyServices } from '../../server/auth/key-services.ts';
+import { systemClock } from '../../server/context.ts';
 import { openDatabase, type Database } from '../../server/db/client.ts';
-import { KeyLeases, MAX_PREFETCH, type MeteredCall } from '../../server/quota/key-leases.ts';
+import { IDLE_RETURN_MS, KeyLeases, MAX_PREFETCH, type MeteredCall } from '../../server/quota/key-leases.ts';
+import { startKeyServices, type KeyServices } from '../../server/quota/key-services.ts';
 import { leaseKeyUnits, returnKeyLease } from '../../server/quota/quota.repository.ts';
-import { createTestApp, type TestApp } from '../helpers/app.ts';
+import { createTestApp, offsetClock, type TestApp } from '../helpers/app.ts';
 
 // Quota leases (server/quota/key-leases.ts): units reserved in blocks and spent in memory. What must hold
 // whatever the timing: the day's total never passes the quota; a process holding unspent units gives them
@@ -17,11 +18,13 @@ const logger = pino({ level: 'silent' });
 const DAY = '2026-03-14';
 let ctx: TestApp;
 const handles: Database[] = [];
+const started: KeyServices[] = [];
 
 beforeAll(async () => {
   ctx = await createTestApp();
 });
 afterAll(async () => {
+  await Promise.all(started.map((s) => s.stop()));
   await Promise.all(handles.map((h) => h.close()));
   await ctx.close();
 });
@@ -31,11 +34,12 @@ async function newKey(name: string, dailyQuota: number, burstPerMinute = 1_000_0
   return created.key.id;
 }
 
-/** A "server process": its own pool, listener and leases on the shared test database. */
-async function instance(): Promise<KeyServices> {
+/** A "server process": its own pool, listener and leases on the shared test database, and its own clock. */
+async function instance(clock = offsetClock()): Promise<KeyServices> {
   const database = openDatabase(ctx.database.url, { max: 4 });
   handles.push(database);
-  const services = keyServicesFor(database, logger);
+  const services = startKeyServices({ database, logger, clock });
+  started.push(services);
   for (let i = 0; i < 200 && !services.cacheUsable(); i++) await new Promise((r) => setTimeout(r, 10));
   expect(services.cacheUsable(), 'listener connected').toBe(true);
   return services;
@@ -64,7 +68,8 @@ async function dbState(keyId: string) {
 describe('quota leases', () => {
   it('reserve ahead of a busy key, and give idle units back so the database shows exactly what was spent', async () => {
     const keyId = await newKey('lease ahead', 100_000);
-    const a = await instance();
+    const clock = offsetClock();
+    const a = await instance(clock);
     const admitted = await spendSequentially(a.leases, keyId, 300);
     expect(admitted).toBe(300);
     // A sequential burst of calls makes the process hold units in advance (at most MAX_PREFETCH).
@@ -74,7 +79,9 @@ describe('quota leases', () => {
     const during = await dbState(keyId);
     expect(during.used).toBe(300 + held);
 
-    // Without further calls the units go back within about two flush intervals, and usage is written.
+    // Once the key has been idle for IDLE_RETURN_MS (skipped, not waited for), the next flush interval
+    // gives the units back and writes the usage.
+    clock.advance(IDLE_RETURN_MS);
     let after = await dbState(keyId);
     for (let i = 0; i < 50 && (after.used !== 300 || after.usage !== 300); i++) {
       await new Promise((r) => setTimeout(r, 100));
@@ -158,23 +165,18 @@ describe('quota leases', () => {
 
   it('never refuse a call for hits of a minute window that ended while the lease was on its way', async () => {
     const keyId = await newKey('window edge', 100_000, 1_000_000_000);
-    const a = await instance();
+    const clock = offsetClock(100);
+    const a = await instance(clock);
     // The key's current window ends 40 ms from now by the database's clock, and this process's clock
-    // runs 100 ms ahead: the lease grants hits of a window this process already sees as over. Before
-    // the fix such a call was refused as over a burst limit of a billion.
+    // runs 100 ms ahead: the lease grants hits of a window this process may see as over. Such a call
+    // was once refused as over a burst limit of a billion.
     await ctx.database.db.execute(
       sql`insert into rate_limit_hits (key, hits, reset_at) values (${`burst:key:${keyId}`}, 0, now() + interval '40 milliseconds')
           on conflict (key) do update set hits = 0, reset_at = excluded.reset_at`,
     );
-    const realNow = Date.now.bind(Date);
-    const ahead = vi.spyOn(Date, 'now').mockImplementation(() => realNow() + 100);
-    try {
-      const decision = await a.leases.spend(call(keyId));
-      expect(decision).toMatchObject({ admitted: true });
-      expect(decision.burst!.resetAt.getTime()).toBeGreaterThan(Date.now());
-    } finally {
-      ahead.mockRestore();
-    }
+    const decision = await a.leases.spend(call(keyId));
+    expect(decision).toMatchObject({ admitted: true });
+    expect(decision.burst!.resetAtMs).toBeGreaterThan(clock.nowMs());
     await a.leases.settle();
     expect((await dbState(keyId)).used).toBe(1);
   });
@@ -196,7 +198,7 @@ describe('quota leases', () => {
     // A process that dies without giving anything back: its leases are never settled or stopped.
     const doomedHandle = openDatabase(ctx.database.url, { max: 2 });
     handles.push(doomedHandle);
-    const doomed = new KeyLeases(doomedHandle.db, logger);
+    const doomed = new KeyLeases(doomedHandle.db, logger, systemClock);
     const spentBeforeCrash = await spendSequentially(doomed, keyId, 200);
     const lost = doomed.unspent(keyId, DAY);
     expect(spentBeforeCrash).toBe(200);

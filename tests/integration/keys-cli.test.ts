@@ -57,6 +57,27 @@ describe('npm run keys', () => {
     expect(json.stdout).not.toContain(created.secret);
   }, 30_000);
 
+  it('issues a key for web pages with repeated --origin, and replaces its origins later', async () => {
+    const res = await keys(['create', '--email', TEST_DEVELOPER.email, '--name', 'Club log page', '--origin', 'https://log.example.org', '--origin', 'http://127.0.0.1:8088']);
+    expect(res.code, res.stderr).toBe(0);
+    expect(res.stdout).toContain('Web pages of https://log.example.org, http://127.0.0.1:8088 may use it from a browser.');
+    const id = /\(id ([0-9a-f-]{36})\)/.exec(res.stdout)![1]!;
+    const admin = await ctx.adminAgent();
+    expect((await admin.get(`/api/v1/keys/${id}`).expect(200)).body.allowedOrigins).toEqual(['https://log.example.org', 'http://127.0.0.1:8088']);
+
+    const moved = await keys(['origins', id, '--origin', 'https://monitor.example.net']);
+    expect(moved.code, moved.stderr).toBe(0);
+    expect(moved.stdout).toContain('now serves web pages of https://monitor.example.net');
+    expect((await admin.get(`/api/v1/keys/${id}`).expect(200)).body.allowedOrigins).toEqual(['https://monitor.example.net']);
+    const none = await keys(['origins', id]);
+    expect(none.code, none.stderr).toBe(0);
+    expect((await admin.get(`/api/v1/keys/${id}`).expect(200)).body.allowedOrigins).toEqual([]);
+
+    const bad = await keys(['create', '--email', TEST_DEVELOPER.email, '--name', 'x', '--origin', 'https://Log.example.org/']);
+    expect(bad.code).toBe(2);
+    expect(bad.stderr).toMatch(/--origin "https:\/\/Log\.example\.org\/": .*https:\/\/log\.example\.org/);
+  }, 60_000);
+
   it('revokes a key, which is refused at once, and the audit trail names the CLI', async () => {
     const res = await keys(['revoke', created.id]);
     expect(res.code, res.stderr).toBe(0);

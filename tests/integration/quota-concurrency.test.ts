@@ -4,7 +4,7 @@ import { sql } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { openDatabase, type Database } from '../../server/db/client.ts';
 import { createKey } from '../../server/api/v1/keys/keys.service.ts';
-import { createMeteredApp, createTestApp, settleQuota, type TestApp } from '../helpers/app.ts';
+import { createMeteredApp, createTestApp, settleQuota, type MeteredApp, type TestApp } from '../helpers/app.ts';
 
 // Exact quotas under contention (common practice for metered APIs): N parallel requests against
 // M < N remaining units admit exactly M, also with two server processes sharing the database.
@@ -16,6 +16,8 @@ const IN_FLIGHT = 64;
 
 let ctx: TestApp;
 const pools: Database[] = [];
+/** One metered app per pool: each stands in for a server process. */
+const apps: MeteredApp[] = [];
 const servers: Server[] = [];
 
 function listen(app: Parameters<typeof createServer>[1]): Promise<string> {
@@ -29,6 +31,7 @@ beforeAll(async () => {
 });
 afterAll(async () => {
   await Promise.all(servers.map((s) => new Promise((r) => s.close(r))));
+  await Promise.all(apps.map((app) => app.close()));
   await Promise.all(pools.map((p) => p.close()));
   await ctx.close();
 });
@@ -44,7 +47,9 @@ describe('two app instances on one database', () => {
     for (let i = 0; i < 2; i++) {
       const database = openDatabase(ctx.database.url, { max: 10 });
       pools.push(database);
-      urls.push(await listen(createMeteredApp({ database, config: ctx.config, mailer: ctx.mailer })));
+      const app = createMeteredApp({ database, config: ctx.config, mailer: ctx.mailer });
+      apps.push(app);
+      urls.push(await listen(app));
     }
 
     const statuses = new Map<number, number>();
@@ -65,7 +70,7 @@ describe('two app instances on one database', () => {
 
     expect(Object.fromEntries(statuses)).toEqual({ 200: QUOTA, 429: REQUESTS - QUOTA });
     // Usage is buffered in each process for up to a second (quota leases); settling writes it.
-    await Promise.all(pools.map(settleQuota));
+    await Promise.all(apps.map(settleQuota));
     const spent = await ctx.database.db.execute(sql`select used from key_quota_days where key_id = ${key.key.id}::uuid`);
     expect(spent.rows).toEqual([{ used: QUOTA }]);
     const recorded = await ctx.database.db.execute(sql`select units, requests from usage_daily where key_id = ${key.key.id}::uuid`);

@@ -2,8 +2,7 @@ import pg from 'pg';
 import { pino } from 'pino';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createApp } from '../../server/app.ts';
-import { stopKeyServices } from '../../server/auth/key-services.ts';
+import { createApp, type GammalineApp } from '../../server/app.ts';
 import { openDatabase, type Database } from '../../server/db/client.ts';
 import { migrateDatabase } from '../../server/db/migrate.ts';
 import { createTestApp, type TestApp } from '../helpers/app.ts';
@@ -17,6 +16,7 @@ const TIMEOUT_MS = 300;
 let ctx: TestApp;
 let slow: Database;
 let locker: pg.Client;
+let slowApp: GammalineApp | undefined;
 
 beforeAll(async () => {
   ctx = await createTestApp();
@@ -27,14 +27,14 @@ beforeAll(async () => {
 
 afterAll(async () => {
   await locker.end();
-  await stopKeyServices(slow);
+  await slowApp?.close();
   await slow.close();
   await ctx.close();
 });
 
 describe('the serving pool’s statement timeout', () => {
   it('answers 503 with Retry-After while a table is locked past the timeout, and 200 once it is free', async () => {
-    const app = createApp({ database: slow, config: ctx.config, logger: pino({ level: 'silent' }) });
+    const app = (slowApp = createApp({ database: slow, config: ctx.config, logger: pino({ level: 'silent' }) }));
     expect((await request(app).get('/api/v1/feedlines').set(ctx.auth)).status).toBe(200);
 
     await locker.query('begin');

@@ -1,7 +1,9 @@
 import type { Router } from 'express';
 import type { AppContext } from '../../context.ts';
-import { calculationGuard, requireCaller } from '../../auth/caller.ts';
-import { calcRouter } from './calc/calc.routes.ts';
+import { requireCaller } from '../../auth/caller.ts';
+import { calculationGuard } from '../../quota/meter.ts';
+import { browserPreflight } from '../../http/cors.ts';
+import { calculationsRouter } from './calculations/calculations.routes.ts';
 import { batchRouter } from './batch/batch.routes.ts';
 import { cablesRouter } from './cables/cables.routes.ts';
 import { feedlinesRouter } from './feedlines/feedlines.routes.ts';
@@ -16,6 +18,7 @@ import { invitationsRouter } from './invitations/invitations.routes.ts';
 import { organisationRouter } from './organisation/organisation.routes.ts';
 import { auditRouter } from './audit/audit.routes.ts';
 import { mailRouter } from './mail/mail.routes.ts';
+import { statusRouter } from './status/status.routes.ts';
 
 /**
  * Version 1 of the API, mounted once at `/api/v1`. Each resource module registers its OpenAPI paths
@@ -24,7 +27,9 @@ import { mailRouter } from './mail/mail.routes.ts';
 export function v1Router(ctx: AppContext): Router {
   // Every calculation route needs a key or a console session; metered ones also spend quota. The
   // calculation routes are the hot path, so they sit in this router itself rather than one level down.
-  const router = calcRouter(ctx, { guard: (endpoint, { metered }) => (metered ? calculationGuard(ctx, endpoint) : [requireCaller(ctx)]) });
+  const router = calculationsRouter(ctx, { guard: (endpoint, { metered }) => (metered ? calculationGuard(ctx, endpoint) : [requireCaller(ctx)]) });
+  // Browsers ask before a page's cross-origin call (without its key); the calls themselves are checked with their key (requireCaller).
+  router.options('/{*path}', browserPreflight(ctx));
   router.use(batchRouter(ctx));
   router.use(cablesRouter(ctx));
   router.use(feedlinesRouter(ctx));
@@ -38,5 +43,6 @@ export function v1Router(ctx: AppContext): Router {
   router.use(organisationRouter(ctx));
   router.use(auditRouter(ctx));
   router.use(mailRouter(ctx));
+  router.use(statusRouter(ctx));
   return router;
 }

@@ -1,6 +1,7 @@
-import { afterEach, describe, expect, it, vi } from 'vitest';
+import { describe, expect, it, vi } from 'vitest';
 import { KEY_CACHE_TTL_MS, KEY_REFRESH_AFTER_MS, VerifiedKeyCache } from '../../../server/auth/key-cache.ts';
 import type { VerifiedKey } from '../../../server/auth/verify-key.ts';
+import { systemClock } from '../../../server/context.ts';
 
 const key = { keyId: 'k1', userId: 'u1', organisationId: 'o1' } as VerifiedKey;
 const deferred = <T>() => {
@@ -9,13 +10,21 @@ const deferred = <T>() => {
   return { promise, resolve };
 };
 
-afterEach(() => {
-  vi.useRealTimers();
-});
+/** A clock the test sets by hand (the cache reads time only through its clock). */
+function clockAt(ms: number) {
+  let now = ms;
+  return {
+    now: () => new Date(now),
+    nowMs: () => now,
+    set(at: number) {
+      now = at;
+    },
+  };
+}
 
 describe('the verified-key cache', () => {
   it('lets concurrent verifications of one key share a single lookup', async () => {
-    const cache = new VerifiedKeyCache();
+    const cache = new VerifiedKeyCache(systemClock);
     const lookup = deferred<string>();
     const verify = vi.fn(() => lookup.promise);
     const first = cache.shared('h', verify);
@@ -29,7 +38,7 @@ describe('the verified-key cache', () => {
   });
 
   it('never hands a read from before an announced change to a request that arrives after it', async () => {
-    const cache = new VerifiedKeyCache();
+    const cache = new VerifiedKeyCache(systemClock);
     const before = deferred<string>();
     const early = cache.shared('h', () => before.promise);
     cache.forget('key:k1');
@@ -40,23 +49,23 @@ describe('the verified-key cache', () => {
   });
 
   it('marks an entry for renewal before it expires, and forgets it at expiry', () => {
-    vi.useFakeTimers({ now: 1_000_000 });
-    const cache = new VerifiedKeyCache();
+    const clock = clockAt(1_000_000);
+    const cache = new VerifiedKeyCache(clock);
     cache.put('h', key, cache.generation);
     expect(cache.isAging('h')).toBe(false);
-    vi.setSystemTime(1_000_000 + KEY_REFRESH_AFTER_MS + 1);
+    clock.set(1_000_000 + KEY_REFRESH_AFTER_MS + 1);
     expect(cache.isAging('h')).toBe(true);
-    expect(cache.get('h', new Date())).toBe(key);
+    expect(cache.get('h', clock.now())).toBe(key);
     // Renewed: young again.
     cache.put('h', key, cache.generation);
     expect(cache.isAging('h')).toBe(false);
-    vi.setSystemTime(1_000_000 + KEY_REFRESH_AFTER_MS + 1 + KEY_CACHE_TTL_MS + 1);
-    expect(cache.get('h', new Date())).toBeUndefined();
+    clock.set(1_000_000 + KEY_REFRESH_AFTER_MS + 1 + KEY_CACHE_TTL_MS + 1);
+    expect(cache.get('h', clock.now())).toBeUndefined();
     expect(KEY_REFRESH_AFTER_MS).toBeLessThan(KEY_CACHE_TTL_MS);
   });
 
   it('drops an entry whose key a renewal found no longer valid', () => {
-    const cache = new VerifiedKeyCache();
+    const cache = new VerifiedKeyCache(systemClock);
     cache.put('h', key, cache.generation);
     cache.drop('h');
     expect(cache.get('h', new Date())).toBeUndefined();

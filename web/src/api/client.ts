@@ -54,7 +54,8 @@ export function unreachableProblem(reason: string): ApiProblem {
   };
 }
 
-function problemFrom(error: unknown, response: Response): ApiProblem {
+/** The problem of a failed answer; a body that is not a problem still yields one built from the status line. */
+export function problemFrom(error: unknown, response: Response): ApiProblem {
   return (
     toApiProblem(error, response.status) ?? {
       type: 'about:blank',

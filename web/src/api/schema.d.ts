@@ -171,7 +171,9 @@ export interface paths {
          * Many calculations in one request (JSON or streamed NDJSON)
          * @description **JSON** (`application/json`, body up to 16mb): `{ items: [{ op, input }] }` with 1 to 20000 items; `op` is `mismatch`, `reflection`, `line`, `refer` or `match` and `input` the body of that endpoint. The answer has one result per item, in order: `{ ok: true, output }` or `{ ok: false, problem }`, the problem being what the single endpoint would have answered, with fields addressed from the request root (`items.3.input.loadOhm`). One bad item never fails the others. Each item costs one calculation unit; a batch that does not fit the remaining daily quota is refused whole (429) before any work.
          *
-         *     **NDJSON** (`application/x-ndjson`, no size limit): one item `{ op, input }` per line; the answer streams one line per non-blank input line, in order, `{ line, ok, output | problem }` (`line` = 1-based input line number), computed and charged in blocks of 1000 lines as they arrive, in constant memory and with back-pressure both ways: read the answer while you send (curl does; a client that sends everything before reading stalls once a few megabytes of answers wait). A line that is not JSON, or longer than 64 KB, gets a problem line like a bad item and the stream goes on; every non-blank line costs one unit. The last line is always `{ end: "complete", summary }`, or `{ end: "stopped", problem, nextLine, summary }` when the daily quota ran out (problem status 429; lines from `nextLine` on were not computed) or the server could not go on; an answer without an `end` line was cut off. When no quota is left at the start, the answer is a plain 429 problem.
+         *     **NDJSON** (`application/x-ndjson`, no size limit when plain): one item `{ op, input }` per line; the answer streams one line per non-blank input line, in order, `{ line, ok, output | problem }` (`line` = 1-based input line number), computed and charged in blocks of 1000 lines as they arrive, in constant memory and with back-pressure both ways: read the answer while you send (curl does; a client that sends everything before reading stalls once a few megabytes of answers wait). A line that is not JSON, or longer than 64 KB, gets a problem line like a bad item and the stream goes on; every non-blank line costs one unit. The last line is always `{ end: "complete", summary }`, or `{ end: "stopped", problem, nextLine, summary }` when the daily quota ran out (problem status 429; lines from `nextLine` on were not computed), a compressed body failed (see below) or the server could not go on; an answer without an `end` line was cut off. When no quota is left at the start, the answer is a plain 429 problem.
+         *
+         *     **Compressed bodies** (`Content-Encoding`, any case). NDJSON: `gzip` (or `x-gzip`) is decoded as it streams, with the same 64 KB line limit on the decoded lines, and a compressed body may decode to at most 64 MB: beyond that, or when the gzip data is corrupt or cut short, it is refused with 413 or 400 (a problem answer while the first block is read, before anything is charged; later, the `end: "stopped"` line with that problem and `nextLine`; lines read since the last computed one are neither computed nor charged). `identity` or no header means plain; any other coding (`deflate`, `br`, `compress`, a list of codings) is refused with 415 naming the accepted ones, and `Accept-Encoding: gzip`, before anything is charged. JSON: `gzip`, `deflate` and `br` are decoded and the 16mb limit applies to the decoded body (413 beyond it, 400 for corrupt data); other codings answer 415.
          */
         post: operations["runBatch"];
         delete?: never;
@@ -189,7 +191,7 @@ export interface paths {
         };
         /**
          * The cable catalog and your organisation's cables
-         * @description Generic cable types by trade designation (`origin: "catalog"`), with impedance, velocity factor, attenuation model, voltage rating where known, and the source of each entry; then the cables admins of your organisation defined (`origin: "account"`, ids starting with `account-`). Any of these ids works as `cableId` everywhere.
+         * @description Generic cable types by trade designation (`origin: "catalog"`), with impedance, velocity factor, attenuation model, voltage rating where known, and the source of each entry; then the cables admins of your organisation defined (`origin: "account"`, ids starting with `account-`). Any of these ids works as `cableId` everywhere. One calculation unit (the list is one page).
          */
         get: operations["listCables"];
         put?: never;
@@ -211,7 +213,10 @@ export interface paths {
             path?: never;
             cookie?: never;
         };
-        /** One cable */
+        /**
+         * One cable
+         * @description One calculation unit.
+         */
         get: operations["getCable"];
         put?: never;
         post?: never;
@@ -253,7 +258,10 @@ export interface paths {
             path?: never;
             cookie?: never;
         };
-        /** List your organisation's saved feed lines */
+        /**
+         * List your organisation's saved feed lines
+         * @description One calculation unit (the list is one page).
+         */
         get: operations["listFeedlines"];
         put?: never;
         /**
@@ -274,7 +282,10 @@ export interface paths {
             path?: never;
             cookie?: never;
         };
-        /** One saved feed line */
+        /**
+         * One saved feed line
+         * @description One calculation unit.
+         */
         get: operations["getFeedline"];
         put?: never;
         post?: never;
@@ -341,13 +352,13 @@ export interface paths {
         };
         /**
          * List your organisation's sweeps
-         * @description Summaries and verdicts without the points, newest first.
+         * @description Summaries and verdicts without the points, newest first. One calculation unit per page (at most 2,000 points): the list is one page.
          */
         get: operations["listSweeps"];
         put?: never;
         /**
          * Upload and analyse a sweep
-         * @description A Touchstone one-port file (`.s1p`, version 1 or 2, any option line: Hz/kHz/MHz/GHz, S/Z/Y, MA/DB/RI, R n) or a CSV (`frequency_hz, r_ohm, x_ohm` or `frequency_hz, s11_re, s11_im`) as multipart/form-data in the field `file` (at most 8 MB and 100,000 points), or JSON points. With `line` or `feedlineId` and `direction` the sweep is moved to the other end of the line first. Per point: impedance, Γ, SWR and return loss against `referenceOhm`; a summary (minimum SWR, bands under `thresholdSwr`, resonances) and, with a `mask`, a pass/fail verdict with the worst point. The sweep is stored for your organisation. A file that cannot be read is a 400 problem naming the line and what is wrong there. One calculation unit.
+         * @description A Touchstone one-port file (`.s1p`, version 1 or 2, any option line: Hz/kHz/MHz/GHz, S/Z/Y, MA/DB/RI, R n) or a CSV (`frequency_hz, r_ohm, x_ohm` or `frequency_hz, s11_re, s11_im`) as multipart/form-data in the field `file` (at most 8 MB and 100,000 points), or JSON points. With `line` or `feedlineId` and `direction` the sweep is moved to the other end of the line first. Per point: impedance, Γ, SWR and return loss against `referenceOhm`; a summary (minimum SWR, bands under `thresholdSwr`, resonances) and, with a `mask`, a pass/fail verdict with the worst point. The sweep is stored for your organisation. A file that cannot be read is a 400 problem naming the line and what is wrong there. Reading and analysing run off the server's event loop, so a large upload does not hold up other requests. The answer holds the summary and the first 1,000 analysed points with `nextCursor` for the rest (GET /api/v1/sweeps/{id}/points). One calculation unit.
          */
         post: operations["uploadSweep"];
         delete?: never;
@@ -363,19 +374,45 @@ export interface paths {
             path?: never;
             cookie?: never;
         };
-        /** One sweep with every analysed point */
+        /**
+         * One sweep with the first page of its analysed points
+         * @description The summary, the verdict and the first page of analysed points (`limit`, default 1,000) with `nextCursor` for the next page; with `fields=summary` no points. A sweep holds at most 100,000 points. One calculation unit (one page).
+         */
         get: operations["getSweep"];
         put?: never;
         post?: never;
-        /** Delete a sweep */
+        /**
+         * Delete a sweep
+         * @description One calculation unit.
+         */
         delete: operations["deleteSweep"];
         options?: never;
         head?: never;
         /**
          * Judge a stored sweep by another threshold or acceptance figure
-         * @description Sets `thresholdSwr` and/or `mask` (`null` removes the mask); the bands, the summary and the verdict are worked out again from the stored points, which never change.
+         * @description Sets `thresholdSwr` and/or `mask` (`null` removes the mask); the bands, the summary and the verdict are worked out again from the stored points, which never change. One calculation unit.
          */
         patch: operations["updateSweep"];
+        trace?: never;
+    };
+    "/api/v1/sweeps/{id}/points": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /**
+         * A sweep's analysed points, a page at a time or streamed whole
+         * @description JSON (the default): one page of at most `limit` points (1 to 2,000, default 1,000) from `cursor`, and `nextCursor` for the next one (`null` after the last point); following the cursors visits every point once, by increasing frequency. With `Accept: text/csv` or `Accept: application/x-ndjson` (or `format=csv`/`format=ndjson`) every point is streamed instead, as the CSV of GET /api/v1/sweeps/{id}/points.csv or as one JSON `AnalysedPoint` per line; the server reads and writes it in slices at the pace the client reads. One calculation unit per page (at most 2,000 points); a streamed export costs one unit for every 2,000 points it holds (at least one).
+         */
+        get: operations["listSweepPoints"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
         trace?: never;
     };
     "/api/v1/sweeps/{id}/points.csv": {
@@ -387,7 +424,7 @@ export interface paths {
         };
         /**
          * The analysed points as CSV
-         * @description RFC 4180 CSV with CRLF line ends and a header row: `frequency_hz, r_ohm, x_ohm, reflection_re, reflection_im, reflection_magnitude, reflection_angle_deg, swr, return_loss_db`. Unbounded figures and an open circuit's impedance are empty cells. POST /api/v1/sweeps reads such a file back.
+         * @description RFC 4180 CSV with CRLF line ends and a header row: `frequency_hz, r_ohm, x_ohm, reflection_re, reflection_im, reflection_magnitude, reflection_angle_deg, swr, return_loss_db`. Unbounded figures and an open circuit's impedance are empty cells. POST /api/v1/sweeps reads such a file back. Streamed in slices at the pace the client reads. A streamed export costs one unit for every 2,000 points it holds (at least one).
          */
         get: operations["exportSweepPoints"];
         put?: never;
@@ -501,7 +538,7 @@ export interface paths {
         put?: never;
         /**
          * Issue a key
-         * @description Issues a key for yourself, or (admins) for any member. The answer holds the secret; it is shown this once. Quota fields are for admins; without them the key gets the organisation defaults. Audited.
+         * @description Issues a key for yourself, or (admins) for any member. The answer holds the secret; it is shown this once. Quota fields are for admins; without them the key gets the organisation defaults. `allowedOrigins` lists the web pages that may use the key from a browser (none by default). Audited.
          */
         post: operations["createKey"];
         delete?: never;
@@ -530,7 +567,7 @@ export interface paths {
         head?: never;
         /**
          * Rename a key or change its limits
-         * @description Owners may change name and note; only admins may change `dailyQuota` and `burstPerMinute` (audited). New limits apply from the next request.
+         * @description Owners may change name, note and `allowedOrigins`; only admins may change `dailyQuota` and `burstPerMinute` (audited). New limits and origins apply from the next request, on every server.
          */
         patch: operations["updateKey"];
         trace?: never;
@@ -641,7 +678,7 @@ export interface paths {
         put?: never;
         /**
          * Accept an invitation
-         * @description Creates the member from the token in the e-mail; the token works once. Then sign in with POST /api/v1/session.
+         * @description The token in the e-mail works once. **Without a session**: `token`, `displayName` and `password` create a new account in the inviting organisation (201); then sign in with POST /api/v1/session. If the invited address already has an account, the answer is 409: sign in with it first. **Signed in as the invited address** (session cookie and `X-CSRF-Token`): `token` alone; the account moves to the inviting organisation with the invited role (200). An account belongs to one organisation, so it leaves its current one: its API keys there are revoked, its sweeps and feed lines stay there, and both audit trails record the move (`member.left`, `member.joined`). The only admin of an organisation cannot leave it (409). Every session of the account ends and this one continues under a new session id: read the new `csrfToken` from GET /api/v1/session. A refused acceptance (400, 409) leaves the token unspent.
          */
         post: operations["acceptInvitation"];
         delete?: never;
@@ -717,6 +754,26 @@ export interface paths {
          * @description Decoded text and the raw message. Local mode only: in production Gammaline sends mail through SMTP_URL and this route answers 404.
          */
         get: operations["getCapturedMail"];
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
+        trace?: never;
+    };
+    "/api/v1/status": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /**
+         * Live load figures of this server process (admins)
+         * @description Request rate, error and refusal shares, p95 latency, units spent, event-loop delay and the database pool, read from the registry behind GET /metrics. Cheap enough to ask every few seconds.
+         */
+        get: operations["getServiceFigures"];
         put?: never;
         post?: never;
         delete?: never;
@@ -2169,7 +2226,7 @@ export interface components {
             direction: "inputToLoad" | "loadToInput";
             reading: components["schemas"]["Reading"];
         };
-        /** @description A stored sweep with every analysed point. */
+        /** @description A stored sweep: summary, verdict and the first page of analysed points. */
         Sweep: {
             /** Format: uuid */
             id: string;
@@ -2197,7 +2254,13 @@ export interface components {
             createdAt: string;
             /** @description The sections the sweep was moved through, from the transmitter end, as they were at upload (the points were moved then; later changes to a feed line or cable do not alter them); `null` when not moved. */
             line: components["schemas"]["FeedlineSection"][] | null;
-            points: components["schemas"]["AnalysedPoint"][];
+            /** @description The first page of analysed points (1000 unless `limit` says otherwise; `summary.pointCount` is the total). Absent with `fields=summary`. */
+            points?: components["schemas"]["AnalysedPoint"][];
+            /**
+             * @description Where the next page starts (GET /api/v1/sweeps/{id}/points?cursor=…); `null` when the first page holds every point. Absent with `fields=summary`.
+             * @example cDEwMDA
+             */
+            nextCursor?: string | null;
         };
         /**
          * @description An acceptance figure over a frequency range: `{ maxSwr }` or `{ minReturnLossDb }`, optionally with `startHz`/`stopHz`.
@@ -2452,6 +2515,16 @@ export interface components {
             verdict: components["schemas"]["SweepVerdict"];
             createdAt: string;
         };
+        /** @description One page of a stored sweep's analysed points. */
+        SweepPointsPage: {
+            /** @description Analysed points by increasing frequency. */
+            points: components["schemas"]["AnalysedPoint"][];
+            /**
+             * @description Pass as `cursor` to GET /api/v1/sweeps/{id}/points for the next page; `null` after the last point. Opaque; it stays valid as long as the sweep exists (stored points never change).
+             * @example cDEwMDA
+             */
+            nextCursor: string | null;
+        };
         /**
          * @description The bands and the verdict are worked out again from the stored points.
          * @example {
@@ -2619,6 +2692,11 @@ export interface components {
              */
             burstPerMinute: number;
             /**
+             * @description Exact origins of the web pages that may use the key from a browser; empty: none (servers and programs are not affected).
+             * @example []
+             */
+            allowedOrigins: string[];
+            /**
              * @description Units spent so far today (UTC).
              * @example 42
              */
@@ -2695,6 +2773,14 @@ export interface components {
              * @example 60
              */
             burstPerMinute?: number;
+            /**
+             * @description Exact origins (`scheme://host[:port]`) of the web pages that may call the API with this key from a browser. A request carrying an `Origin` header outside this list is refused with 403; an empty list allows no browser page. Requests without `Origin` (servers, programs) are not affected.
+             * @default []
+             * @example [
+             *       "https://log.example.org"
+             *     ]
+             */
+            allowedOrigins?: string[];
         };
         UpdateApiKey: {
             name?: string;
@@ -2709,6 +2795,13 @@ export interface components {
              * @example 60
              */
             burstPerMinute?: number;
+            /**
+             * @description Exact origins (`scheme://host[:port]`) of the web pages that may call the API with this key from a browser. A request carrying an `Origin` header outside this list is refused with 403; an empty list allows no browser page. Requests without `Origin` (servers, programs) are not affected.
+             * @example [
+             *       "https://log.example.org"
+             *     ]
+             */
+            allowedOrigins?: string[];
         };
         Usage: {
             /**
@@ -2823,13 +2916,16 @@ export interface components {
              * @example Vb1sQ8mJ2yTt4nCq0rX7eWz3aKf5uGh6LpD9oN1iS2M
              */
             token: string;
-            /** @example Oskar Brandt */
-            displayName: string;
             /**
-             * @description At least 12 characters; no other rules.
+             * @description For a new account: the name other members will see. Not used when you accept signed in.
+             * @example Oskar Brandt
+             */
+            displayName?: string;
+            /**
+             * @description For a new account: its password, at least 12 characters; no other rules. Not used when you accept signed in.
              * @example four quiet ridge antennas
              */
-            password: string;
+            password?: string;
         };
         Organisation: {
             /** Format: uuid */
@@ -2870,7 +2966,7 @@ export interface components {
             /** @example admin@kestrel-ridge.example */
             actorLabel: string;
             /**
-             * @description `key.created`, `key.revoked`, `key.quota_changed`, `member.role_changed`, `member.disabled`, `member.enabled`, `member.joined`, `invitation.sent`, `invitation.withdrawn`, `organisation.defaults_changed`, `cable.added`, `cable.changed`, `cable.removed` (account cables).
+             * @description `key.created`, `key.revoked`, `key.quota_changed`, `member.role_changed`, `member.disabled`, `member.enabled`, `member.joined`, `member.left` (moved to another organisation by accepting its invitation), `invitation.sent`, `invitation.withdrawn`, `organisation.defaults_changed`, `cable.added`, `cable.changed`, `cable.removed` (account cables).
              * @example key.quota_changed
              */
             action: string;
@@ -2937,6 +3033,89 @@ export interface components {
             text: string;
             /** @description The message as received. */
             raw: string;
+        };
+        /** @description Live figures of the server process that answered (with WORKERS > 1, one worker's). */
+        ServiceFigures: {
+            /**
+             * @description Seconds the rates and shares cover (about the last minute; longer when nobody asked for a while).
+             * @example 58.2
+             */
+            windowS: number;
+            /**
+             * @description Answered requests per second, every path.
+             * @example 41.5
+             */
+            requestsPerS: number;
+            /**
+             * @description Share of answers that were 5xx (0 to 1), shed requests included.
+             * @example 0.002
+             */
+            serverErrorShare: number;
+            /**
+             * @description Share of answers that were 429: a burst limit or a daily quota spent.
+             * @example 0.01
+             */
+            refusalShare: number;
+            /**
+             * @description API requests answered 503 per second because the server was overloaded.
+             * @example 0
+             */
+            shedPerS: number;
+            /**
+             * @description 95th percentile of answer times, from the latency histogram's buckets; null without requests.
+             * @example 4.2
+             */
+            p95LatencyMs: number | null;
+            /**
+             * @description Calculation units spent per second.
+             * @example 38.1
+             */
+            unitsSpentPerS: number;
+            /**
+             * @description Calculation units refused per second (quota or burst limit).
+             * @example 0.4
+             */
+            unitsRefusedPerS: number;
+            /**
+             * @description API requests under way now.
+             * @example 3
+             */
+            inFlight: number;
+            /**
+             * @description The event loop's recent delay: above SHED_EVENT_LOOP_DELAY_MS new API requests are shed.
+             * @example 0.6
+             */
+            eventLoopDelayMs: number;
+            database: components["schemas"]["DatabasePoolFigures"];
+            /**
+             * @description Seconds since this server process started.
+             * @example 86400
+             */
+            uptimeS: number;
+        };
+        DatabasePoolFigures: {
+            /**
+             * @description Open connections of the serving pool.
+             * @example 4
+             */
+            connections: number;
+            /**
+             * @description Connections lent to a query now.
+             * @example 1
+             */
+            inUse: number;
+            /** @example 3 */
+            idle: number;
+            /**
+             * @description Queries waiting for a free connection.
+             * @example 0
+             */
+            waiting: number;
+            /**
+             * @description Most connections the pool may open.
+             * @example 10
+             */
+            max: number;
         };
     };
     responses: never;
@@ -4601,7 +4780,7 @@ export interface operations {
                     "application/problem+json": components["schemas"]["Problem"];
                 };
             };
-            /** @description The body is neither JSON nor NDJSON. */
+            /** @description The body is neither JSON nor NDJSON, or comes in a content coding the route does not take. */
             415: {
                 headers: {
                     [name: string]: unknown;
@@ -4653,6 +4832,10 @@ export interface operations {
             /** @description Every cable you can use. */
             200: {
                 headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -4662,6 +4845,26 @@ export interface operations {
             /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
             401: {
                 headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -4789,6 +4992,10 @@ export interface operations {
             /** @description The cable. */
             200: {
                 headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -4813,9 +5020,29 @@ export interface operations {
                     "application/problem+json": components["schemas"]["Problem"];
                 };
             };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
             /** @description Not found. */
             404: {
                 headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -5124,6 +5351,10 @@ export interface operations {
             /** @description Feed lines, oldest first. */
             200: {
                 headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -5133,6 +5364,26 @@ export interface operations {
             /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
             401: {
                 headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -5251,6 +5502,10 @@ export interface operations {
             /** @description The feed line. */
             200: {
                 headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -5275,9 +5530,29 @@ export interface operations {
                     "application/problem+json": components["schemas"]["Problem"];
                 };
             };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
             /** @description Not found. */
             404: {
                 headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -5696,6 +5971,10 @@ export interface operations {
             /** @description The sweeps. */
             200: {
                 headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -5705,6 +5984,26 @@ export interface operations {
             /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
             401: {
                 headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -5736,9 +6035,13 @@ export interface operations {
             };
         };
         responses: {
-            /** @description The stored sweep with every analysed point. */
+            /** @description The stored sweep with the first page of analysed points. */
             201: {
                 headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -5823,7 +6126,12 @@ export interface operations {
     };
     getSweep: {
         parameters: {
-            query?: never;
+            query?: {
+                /** @description `summary`: the sweep without points. */
+                fields?: "summary";
+                /** @description Points per page, 1 to 2000 (default 1000). */
+                limit?: number;
+            };
             header?: never;
             path: {
                 id: string;
@@ -5835,6 +6143,10 @@ export interface operations {
             /** @description The sweep. */
             200: {
                 headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -5859,9 +6171,38 @@ export interface operations {
                     "application/problem+json": components["schemas"]["Problem"];
                 };
             };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
             /** @description Not found. */
             404: {
                 headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -5893,6 +6234,10 @@ export interface operations {
             /** @description Deleted. */
             204: {
                 headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
                     [name: string]: unknown;
                 };
                 content?: never;
@@ -5933,6 +6278,17 @@ export interface operations {
                     "application/problem+json": components["schemas"]["Problem"];
                 };
             };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
             /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
             503: {
                 headers: {
@@ -5959,9 +6315,13 @@ export interface operations {
             };
         };
         responses: {
-            /** @description The sweep as judged now, with every analysed point. */
+            /** @description The sweep as judged now, with the first page of analysed points. */
             200: {
                 headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -6031,6 +6391,117 @@ export interface operations {
                     "application/problem+json": components["schemas"]["Problem"];
                 };
             };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    listSweepPoints: {
+        parameters: {
+            query?: {
+                /** @description Points per page, 1 to 2000 (default 1000). */
+                limit?: number;
+                /** @description `nextCursor` of the previous page; leave out for the first page. */
+                cursor?: string;
+                /** @description Instead of `Accept`: `json` (one page), `csv` or `ndjson` (every point, streamed; `limit` and `cursor` do not apply). */
+                format?: "json" | "csv" | "ndjson";
+            };
+            header?: never;
+            path: {
+                id: string;
+            };
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description A page of points, or every point as CSV or NDJSON. */
+            200: {
+                headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["SweepPointsPage"];
+                    "text/csv": string;
+                    "application/x-ndjson": string;
+                };
+            };
+            /** @description The request is malformed or fails validation (field list in `errors`). */
+            400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Not found. */
+            404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Well-formed input that cannot be computed or stored (the field and the reason are named). */
+            422: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
             /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
             503: {
                 headers: {
@@ -6056,6 +6527,10 @@ export interface operations {
             /** @description The CSV file. */
             200: {
                 headers: {
+                    /** @description The limits that apply. */
+                    "RateLimit-Policy": string;
+                    /** @description What remains of each limit (`r`) and seconds until it resets (`t`). */
+                    RateLimit: string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -6080,9 +6555,29 @@ export interface operations {
                     "application/problem+json": components["schemas"]["Problem"];
                 };
             };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
             /** @description Not found. */
             404: {
                 headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The per-minute burst limit or the daily quota is spent. Wait `Retry-After` seconds. */
+            429: {
+                headers: {
+                    /** @description Seconds to wait before trying again. */
+                    "Retry-After": string;
                     [name: string]: unknown;
                 };
                 content: {
@@ -7397,6 +7892,15 @@ export interface operations {
             };
         };
         responses: {
+            /** @description Signed in as the invited address: the account, now a member of the inviting organisation. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["Member"];
+                };
+            };
             /** @description The new member. */
             201: {
                 headers: {
@@ -7408,6 +7912,24 @@ export interface operations {
             };
             /** @description The request is malformed or fails validation (field list in `errors`). */
             400: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
                 headers: {
                     [name: string]: unknown;
                 };
@@ -7783,6 +8305,53 @@ export interface operations {
             };
             /** @description Not found. */
             404: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description The database is unreachable or too slow to answer; retry after `Retry-After` seconds. */
+            503: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+        };
+    };
+    getServiceFigures: {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        requestBody?: never;
+        responses: {
+            /** @description The figures. */
+            200: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/json": components["schemas"]["ServiceFigures"];
+                };
+            };
+            /** @description No valid key or session. Missing, malformed, unknown, revoked and expired keys, and keys of disabled members, all look the same. */
+            401: {
+                headers: {
+                    [name: string]: unknown;
+                };
+                content: {
+                    "application/problem+json": components["schemas"]["Problem"];
+                };
+            };
+            /** @description Signed in, but your role does not allow this, or a console write lacks its X-CSRF-Token. */
+            403: {
                 headers: {
                     [name: string]: unknown;
                 };

@@ -3,9 +3,6 @@ import { useSessionStore } from '../stores/session.ts';
 import { decide } from './guards.ts';
 import { routes } from './routes.ts';
 
-export { menuOrder, routes } from './routes.ts';
-export type { Role, RouteName } from './routes.ts';
-
 /** Builds the console router; tests pass a memory history. Needs an active Pinia. */
 export function createConsoleRouter(history: RouterHistory = createWebHistory(import.meta.env.BASE_URL)) {
   const router = createRouter({

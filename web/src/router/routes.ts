@@ -14,7 +14,7 @@ export interface RouteNamedMap {
   try: RouteRecordInfo<'try', '/try', NoParams, NoParams>;
   sweeps: RouteRecordInfo<'sweeps', '/sweeps', NoParams, NoParams>;
   sweep: RouteRecordInfo<'sweep', '/sweeps/:id', { id: string }, { id: string }>;
-  'feed-lines': RouteRecordInfo<'feed-lines', '/feed-lines', NoParams, NoParams>;
+  feedlines: RouteRecordInfo<'feedlines', '/feedlines', NoParams, NoParams>;
   cables: RouteRecordInfo<'cables', '/cables', NoParams, NoParams>;
   keys: RouteRecordInfo<'keys', '/keys', NoParams, NoParams>;
   usage: RouteRecordInfo<'usage', '/usage', NoParams, NoParams>;
@@ -70,11 +70,13 @@ export const routes: RouteRecordRaw[] = [
   { path: '/sweeps', name: 'sweeps', component: () => import('../views/SweepsView.vue'), meta: { title: 'Sweeps', roles: signedIn } },
   { path: '/sweeps/:id', name: 'sweep', component: () => import('../views/SweepView.vue'), meta: { title: 'Sweep', roles: signedIn } },
   {
-    path: '/feed-lines',
-    name: 'feed-lines',
-    component: () => import('../views/FeedLinesView.vue'),
+    path: '/feedlines',
+    name: 'feedlines',
+    component: () => import('../views/FeedlinesView.vue'),
     meta: { title: 'Feed lines', roles: signedIn },
   },
+  // The page's earlier address, kept so bookmarks still open it.
+  { path: '/feed-lines', redirect: { name: 'feedlines' }, meta: { title: 'Feed lines', roles: signedIn } },
   { path: '/cables', name: 'cables', component: () => import('../views/CablesView.vue'), meta: { title: 'Cables', roles: signedIn } },
   { path: '/keys', name: 'keys', component: () => import('../views/KeysView.vue'), meta: { title: 'Keys', roles: signedIn } },
   { path: '/usage', name: 'usage', component: () => import('../views/UsageView.vue'), meta: { title: 'Usage', roles: signedIn } },
@@ -94,4 +96,4 @@ export const routes: RouteRecordRaw[] = [
 ];
 
 /** Pages in the menu, in order. */
-export const menuOrder: readonly RouteName[] = ['status', 'try', 'sweeps', 'feed-lines', 'cables', 'keys', 'usage', 'admin'];
+export const menuOrder: readonly RouteName[] = ['status', 'try', 'sweeps', 'feedlines', 'cables', 'keys', 'usage', 'admin'];

@@ -18,6 +18,7 @@ export type AuditAction =
   | 'member.disabled'
   | 'member.enabled'
   | 'member.joined'
+  | 'member.left'
   | 'invitation.sent'
   | 'invitation.withdrawn'
   | 'organisation.defaults_changed'
@@ -32,25 +33,25 @@ type DbOrTx = Pick<Db, 'insert' | 'select'>;
 /** Adds one event; call it inside the transaction that made the change, so both land or neither. */
 export async function recordAudit(
   db: DbOrTx,
-  e: { organisationId: string; actor: Actor; action: AuditAction; targetType: AuditTargetType; targetId: string; details?: Record<string, unknown> },
+  event: { organisationId: string; actor: Actor; action: AuditAction; targetType: AuditTargetType; targetId: string; details?: Record<string, unknown> },
 ): Promise<void> {
   await db.insert(auditEvents).values({
-    organisationId: e.organisationId,
-    actorUserId: e.actor.userId,
-    actorLabel: e.actor.label,
-    action: e.action,
-    targetType: e.targetType,
-    targetId: e.targetId,
-    details: e.details ?? {},
+    organisationId: event.organisationId,
+    actorUserId: event.actor.userId,
+    actorLabel: event.actor.label,
+    action: event.action,
+    targetType: event.targetType,
+    targetId: event.targetId,
+    details: event.details ?? {},
   });
 }
 
 /** Newest first; `before` pages backwards by time. */
-export async function listAudit(db: Db, q: { organisationId: string; limit: number; before?: Date }) {
+export async function listAudit(db: Db, page: { organisationId: string; limit: number; before?: Date }) {
   return db
     .select()
     .from(auditEvents)
-    .where(and(eq(auditEvents.organisationId, q.organisationId), q.before ? lt(auditEvents.createdAt, q.before) : undefined))
+    .where(and(eq(auditEvents.organisationId, page.organisationId), page.before ? lt(auditEvents.createdAt, page.before) : undefined))
     .orderBy(desc(auditEvents.createdAt), desc(auditEvents.id))
-    .limit(q.limit);
+    .limit(page.limit);
 }

@@ -2,7 +2,7 @@ import { Router } from 'express';
 import type { AppContext } from '../../../context.ts';
 import { callerOf, requireAdmin, requireSession } from '../../../auth/caller.ts';
 import { authProblems, sessionOnly } from '../../../auth/openapi.ts';
-import { validateQuery } from '../../../http/validate.ts';
+import { input, validateQuery } from '../../../http/validate.ts';
 import { problemResponses, registry } from '../../../openapi/registry.ts';
 import { z } from '../../../zod.ts';
 import { listAudit, type AuditTargetType } from './audit.repository.ts';
@@ -12,7 +12,7 @@ const AuditEventSchema = z
     id: z.uuid(),
     actorUserId: z.uuid().nullable().openapi({ description: 'null: an operator at the CLI.' }),
     actorLabel: z.string().openapi({ example: 'admin@kestrel-ridge.example' }),
-    action: z.string().openapi({ description: '`key.created`, `key.revoked`, `key.quota_changed`, `member.role_changed`, `member.disabled`, `member.enabled`, `member.joined`, `invitation.sent`, `invitation.withdrawn`, `organisation.defaults_changed`, `cable.added`, `cable.changed`, `cable.removed` (account cables).', example: 'key.quota_changed' }),
+    action: z.string().openapi({ description: '`key.created`, `key.revoked`, `key.quota_changed`, `member.role_changed`, `member.disabled`, `member.enabled`, `member.joined`, `member.left` (moved to another organisation by accepting its invitation), `invitation.sent`, `invitation.withdrawn`, `organisation.defaults_changed`, `cable.added`, `cable.changed`, `cable.removed` (account cables).', example: 'key.quota_changed' }),
     targetType: z.enum(['key', 'member', 'invitation', 'organisation', 'cable']).openapi({ example: 'key' }),
     targetId: z.uuid(),
     details: z.record(z.string(), z.unknown()).openapi({ example: { before: { dailyQuota: 10000, burstPerMinute: 120 }, after: { dailyQuota: 20000, burstPerMinute: 120 } } }),
@@ -39,18 +39,18 @@ registry.registerPath({
 export function auditRouter(ctx: AppContext): Router {
   const router = Router();
   router.get('/audit', requireSession(ctx), requireAdmin, validateQuery(AuditQuery), async (_req, res) => {
-    const q = res.locals.query as z.infer<typeof AuditQuery>;
-    const rows = await listAudit(ctx.database.db, { organisationId: callerOf(res).organisationId, limit: q.limit, before: q.before ? new Date(q.before) : undefined });
+    const page = input(res, AuditQuery);
+    const rows = await listAudit(ctx.database.db, { organisationId: callerOf(res).organisationId, limit: page.limit, before: page.before ? new Date(page.before) : undefined });
     res.json({
-      events: rows.map((r) => ({
-        id: r.id,
-        actorUserId: r.actorUserId,
-        actorLabel: r.actorLabel,
-        action: r.action,
-        targetType: r.targetType as AuditTargetType,
-        targetId: r.targetId,
-        details: r.details as Record<string, unknown>,
-        createdAt: r.createdAt.toISOString(),
+      events: rows.map((row) => ({
+        id: row.id,
+        actorUserId: row.actorUserId,
+        actorLabel: row.actorLabel,
+        action: row.action,
+        targetType: row.targetType as AuditTargetType,
+        targetId: row.targetId,
+        details: row.details as Record<string, unknown>,
+        createdAt: row.createdAt.toISOString(),
       })),
     });
   });

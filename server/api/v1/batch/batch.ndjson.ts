@@ -1,12 +1,12 @@
-import type { Readable } from 'node:stream';
 import type { RequestHandler, Response } from 'express';
 import type { AppContext } from '../../../context.ts';
 import { callerOf } from '../../../auth/caller.ts';
 import { ApiError, type Problem } from '../../../http/problem.ts';
 import { isDatabaseUnavailable, isStatementCancelled } from '../../../db/unavailable.ts';
-import { cableIdsIn, calculationEnvFor } from '../cables/cables.env.ts';
+import { cableIdsIn, cableLookupFor } from '../cables/cable-lookup.ts';
 import { chargeUnits, quotaSpentProblem, remainingUnits } from './batch.quota.ts';
 import { runItem } from './batch.service.ts';
+import { decodedBody, ndjsonCodingOf } from './batch.encoding.ts';
 
 export const NDJSON_TYPE = 'application/x-ndjson';
 /** Longest input line; a longer one gets a problem line and is skipped without being held in memory. */
@@ -145,9 +145,18 @@ declare global {
  */
 export function readFirstBlock(ctx: AppContext): RequestHandler {
   return async (req, res, next) => {
-    // destroyOnReturn false: stopping early must not destroy the socket the answer goes out on.
-    const lines = readLines((req as Readable).iterator({ destroyOnReturn: false }) as AsyncIterable<Buffer>, MAX_NDJSON_LINE_BYTES);
-    const first = await nextBlock(lines);
+    // Refused before a byte is read or a unit charged.
+    const coding = ndjsonCodingOf(req);
+    const lines = readLines(decodedBody(req, coding), MAX_NDJSON_LINE_BYTES);
+    let first: Block;
+    try {
+      first = await nextBlock(lines);
+    } catch (err) {
+      // A body refused part-way (corrupt gzip, decoded beyond its limit): read and drop the rest, so
+      // the client sees the problem rather than a reset.
+      req.resume();
+      throw err;
+    }
     if (first.lines.length === 0) {
       throw new ApiError('validation', 'The NDJSON body has no items; send one JSON object { "op": …, "input": { … } } per line.');
     }
@@ -178,7 +187,7 @@ function itemOf(line: RawLine): { ok: true; item: unknown } | { ok: false; probl
  */
 export function streamResults(ctx: AppContext): RequestHandler {
   return async (req, res) => {
-    const state = res.locals.ndjson as StreamState;
+    const state = res.locals.ndjson!;
     const organisationId = callerOf(res).organisationId;
     const summary = { items: 0, succeeded: 0, failed: 0, unitsCharged: 0 };
     const writer = new LineWriter(res);
@@ -198,15 +207,18 @@ export function streamResults(ctx: AppContext): RequestHandler {
 
     let block = state.first;
     let granted = state.firstGranted;
+    /** The last input line computed: a stop part-way through the body names the one after it. */
+    let lastLine = 0;
     try {
       for (;;) {
         summary.unitsCharged += granted;
         const items = block.lines.slice(0, granted).map(itemOf);
-        const env = await calculationEnvFor(ctx.database.db, organisationId, cableIdsIn(items.map((i) => (i.ok ? i.item : null))));
+        const cables = await cableLookupFor(ctx.database.db, organisationId, cableIdsIn(items.map((i) => (i.ok ? i.item : null))));
         for (let i = 0; i < items.length; i++) {
           const lineNo = block.lines[i]!.lineNo;
+          lastLine = lineNo;
           const parsed = items[i]!;
-          const outcome = parsed.ok ? runItem(parsed.item, '', env, req.log) : parsed;
+          const outcome = parsed.ok ? runItem(parsed.item, '', cables, req.log) : parsed;
           summary.items++;
           if (outcome.ok) summary.succeeded++;
           else summary.failed++;
@@ -229,6 +241,12 @@ export function streamResults(ctx: AppContext): RequestHandler {
       if (writer.gone) return;
       const client = (err as { code?: string }).code === 'ECONNRESET' || (err as { code?: string }).code === 'ERR_STREAM_PREMATURE_CLOSE';
       if (client) return;
+      if (err instanceof ApiError && (err.kind === 'payloadTooLarge' || err.kind === 'badRequest')) {
+        // The body itself stopped the stream (corrupt gzip, decoded beyond its limit); lines read since
+        // the last computed one were neither computed nor charged.
+        await finish({ problem: err.toProblem(), nextLine: lastLine + 1 });
+        return;
+      }
       const problem = isDatabaseUnavailable(err) || isStatementCancelled(err)
         ? new ApiError('unavailable', 'The database became unreachable or too slow, so no more items could be charged; send the remaining lines again shortly.').toProblem()
         : new ApiError('internal', 'The stream stopped because of a fault on our side; send the remaining lines again. The request id in Request-Id helps us find it.').toProblem();

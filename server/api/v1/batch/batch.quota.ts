@@ -1,7 +1,6 @@
 import type { Response } from 'express';
 import type { AppContext } from '../../../context.ts';
 import { callerOf } from '../../../auth/caller.ts';
-import { keyServicesFor } from '../../../auth/key-services.ts';
 import { ApiError } from '../../../http/problem.ts';
 import { secondsUntilUtcMidnight, utcDay } from '../../../quota/day.ts';
 import { recordConsoleUsage, spendKeyUnits, unitsUsed } from '../../../quota/quota.repository.ts';
@@ -13,7 +12,7 @@ export async function remainingUnits(ctx: AppContext, res: Response): Promise<nu
   if (callerOf(res).kind === 'session' || !key) return Number.POSITIVE_INFINITY;
   const day = utcDay(ctx.clock.now());
   // Units this process reserved and has not spent are still the caller's to spend.
-  const unspent = keyServicesFor(ctx.database, ctx.logger).leases.unspent(key.id, day);
+  const unspent = ctx.keyServices.leases.unspent(key.id, day);
   return Math.max(0, key.dailyQuota - (await unitsUsed(ctx.database.db, key.id, day)) + unspent);
 }
 
@@ -41,7 +40,7 @@ export async function chargeUnits(ctx: AppContext, res: Response, endpoint: stri
     ask = Math.min(ask, key.dailyQuota - spent.used);
     // Units held for single calls of the key, here and in other processes, go back first, so the stream can use them.
     if (attempt === 0) {
-      const leases = keyServicesFor(ctx.database, ctx.logger).leases;
+      const leases = ctx.keyServices.leases;
       await leases.giveBackKey(key.id);
       await leases.reclaimFromOthers(key.id, day);
       ask = wanted;

@@ -1,16 +1,20 @@
 import express, { Router, type RequestHandler } from 'express';
 import { z } from '../../../zod.ts';
 import { BatchEnvelopeSchema, BatchItemSchema, BatchRequestSchema, MAX_BATCH_ITEMS } from '../../../../shared/schemas/batch.ts';
-import { LineResultSchema, MatchResultSchema, MismatchResultSchema, ReferResultSchema, ReflectionResultSchema } from '../../../../shared/schemas/calc.ts';
+import { LineResultSchema, MatchResultSchema, MismatchResultSchema, ReferResultSchema, ReflectionResultSchema } from '../../../../shared/schemas/calculations.ts';
 import type { AppContext } from '../../../context.ts';
-import { callerOf, meterCalculation, requireCaller } from '../../../auth/caller.ts';
-import { meteredProblems, keyOrSession, rateLimitHeaders } from '../../../auth/openapi.ts';
+import { callerOf, requireCaller } from '../../../auth/caller.ts';
+import { meterCalculation } from '../../../quota/meter.ts';
+import { keyOrSession } from '../../../auth/openapi.ts';
+import { meteredProblems, rateLimitHeaders } from '../../../quota/openapi.ts';
 import { ApiError, ProblemSchema } from '../../../http/problem.ts';
+import { input, keepValidatedBody } from '../../../http/validate.ts';
 import { apiErrorFromZod } from '../../../http/zod-issues.ts';
 import { problemResponses, registry } from '../../../openapi/registry.ts';
-import { cableIdsIn, calculationEnvFor } from '../cables/cables.env.ts';
+import { cableIdsIn, cableLookupFor } from '../cables/cable-lookup.ts';
 import { MAX_NDJSON_LINE_BYTES, NDJSON_BLOCK_ITEMS, NDJSON_TYPE, readFirstBlock, streamResults } from './batch.ndjson.ts';
 import { runItem, type ItemOutcome } from './batch.service.ts';
+import { MAX_NDJSON_DECODED_BYTES } from './batch.encoding.ts';
 
 /**
  * JSON body limit of POST /api/v1/batch alone (the app-wide limit stays small): room for
@@ -65,7 +69,7 @@ const NdjsonResultLineSchema = z
     z.object({ line: z.number().int(), ok: z.literal(false), problem: ProblemSchema }),
     z.object({
       end: z.enum(['complete', 'stopped']),
-      problem: ProblemSchema.optional().meta({ description: 'Why the stream stopped early (429 when the quota ran out).' }),
+      problem: ProblemSchema.optional().meta({ description: 'Why the stream stopped early (429 when the quota ran out; 413 or 400 when a compressed body decoded beyond its limit or was corrupt).' }),
       nextLine: z.number().int().optional().meta({ description: 'First input line that was not computed; send the job again from there.' }),
       summary: z.object({ items: z.number().int(), succeeded: z.number().int(), failed: z.number().int(), unitsCharged: z.number().int() }),
     }),
@@ -86,11 +90,14 @@ registry.registerPath({
     `**JSON** (\`application/json\`, body up to ${BATCH_JSON_LIMIT}): \`{ items: [{ op, input }] }\` with 1 to ${MAX_BATCH_ITEMS} items; \`op\` is \`mismatch\`, \`reflection\`, \`line\`, \`refer\` or \`match\` and \`input\` the body of that endpoint. `,
     'The answer has one result per item, in order: `{ ok: true, output }` or `{ ok: false, problem }`, the problem being what the single endpoint would have answered, with fields addressed from the request root (`items.3.input.loadOhm`). One bad item never fails the others. ',
     'Each item costs one calculation unit; a batch that does not fit the remaining daily quota is refused whole (429) before any work.\n\n',
-    `**NDJSON** (\`${NDJSON_TYPE}\`, no size limit): one item \`{ op, input }\` per line; the answer streams one line per non-blank input line, in order, \`{ line, ok, output | problem }\` (\`line\` = 1-based input line number), `,
+    `**NDJSON** (\`${NDJSON_TYPE}\`, no size limit when plain): one item \`{ op, input }\` per line; the answer streams one line per non-blank input line, in order, \`{ line, ok, output | problem }\` (\`line\` = 1-based input line number), `,
     'computed and charged in blocks of ' + NDJSON_BLOCK_ITEMS + ' lines as they arrive, in constant memory and with back-pressure both ways: read the answer while you send (curl does; a client that sends everything before reading stalls once a few megabytes of answers wait). ',
     `A line that is not JSON, or longer than ${MAX_NDJSON_LINE_BYTES / 1024} KB, gets a problem line like a bad item and the stream goes on; every non-blank line costs one unit. `,
-    'The last line is always `{ end: "complete", summary }`, or `{ end: "stopped", problem, nextLine, summary }` when the daily quota ran out (problem status 429; lines from `nextLine` on were not computed) or the server could not go on; an answer without an `end` line was cut off. ',
-    'When no quota is left at the start, the answer is a plain 429 problem.',
+    'The last line is always `{ end: "complete", summary }`, or `{ end: "stopped", problem, nextLine, summary }` when the daily quota ran out (problem status 429; lines from `nextLine` on were not computed), a compressed body failed (see below) or the server could not go on; an answer without an `end` line was cut off. ',
+    'When no quota is left at the start, the answer is a plain 429 problem.\n\n',
+    `**Compressed bodies** (\`Content-Encoding\`, any case). NDJSON: \`gzip\` (or \`x-gzip\`) is decoded as it streams, with the same ${MAX_NDJSON_LINE_BYTES / 1024} KB line limit on the decoded lines, and a compressed body may decode to at most ${MAX_NDJSON_DECODED_BYTES / 1024 / 1024} MB: beyond that, or when the gzip data is corrupt or cut short, it is refused with 413 or 400 (a problem answer while the first block is read, before anything is charged; later, the \`end: "stopped"\` line with that problem and \`nextLine\`; lines read since the last computed one are neither computed nor charged). `,
+    '`identity` or no header means plain; any other coding (`deflate`, `br`, `compress`, a list of codings) is refused with 415 naming the accepted ones, and `Accept-Encoding: gzip`, before anything is charged. ',
+    `JSON: \`gzip\`, \`deflate\` and \`br\` are decoded and the ${BATCH_JSON_LIMIT} limit applies to the decoded body (413 beyond it, 400 for corrupt data); other codings answer 415.`,
   ].join(''),
   security: keyOrSession,
   request: {
@@ -110,7 +117,7 @@ registry.registerPath({
     },
     ...problemResponses.validation,
     ...problemResponses.tooLarge,
-    415: { description: 'The body is neither JSON nor NDJSON.', content: { 'application/problem+json': { schema: ProblemSchema } } },
+    415: { description: 'The body is neither JSON nor NDJSON, or comes in a content coding the route does not take.', content: { 'application/problem+json': { schema: ProblemSchema } } },
     ...meteredProblems,
   },
 });
@@ -127,7 +134,7 @@ const envelope: RequestHandler = (req, res, next) => {
   }
   const parsed = BatchEnvelopeSchema.safeParse(req.body ?? {});
   if (!parsed.success) throw apiErrorFromZod(parsed.error, 'body', { schema: BatchEnvelopeSchema, input: req.body ?? {} });
-  res.locals.body = parsed.data;
+  keepValidatedBody(res, BatchEnvelopeSchema, parsed.data);
   next();
 };
 
@@ -146,10 +153,10 @@ export function batchRouter(ctx: AppContext): Router {
     caller,
     batchJson,
     envelope,
-    meterCalculation(ctx, 'batch', (_req, res) => (res.locals.body as { items: unknown[] }).items.length),
+    meterCalculation(ctx, 'batch', (_req, res) => input(res, BatchEnvelopeSchema).items.length),
     async (req, res) => {
-      const { items } = res.locals.body as { items: unknown[] };
-      const env = await calculationEnvFor(ctx.database.db, callerOf(res).organisationId, cableIdsIn(items));
+      const { items } = input(res, BatchEnvelopeSchema);
+      const cables = await cableLookupFor(ctx.database.db, callerOf(res).organisationId, cableIdsIn(items));
       // Every item is answered (runItem turns its failures into problems), so the 200 is certain here:
       // results go out block by block while the next block is computed, never built as one string
       // (a 10,000-item line batch answers about 8 MB).
@@ -169,7 +176,7 @@ export function batchRouter(ctx: AppContext): Router {
           if (res.destroyed) return; // the client went away: stop computing for nobody
           res.cork();
         }
-        const outcome: ItemOutcome = runItem(items[i], `items.${i}`, env, req.log);
+        const outcome: ItemOutcome = runItem(items[i], `items.${i}`, cables, req.log);
         piece += (i === 0 ? '' : ',') + JSON.stringify(outcome);
       }
       // end() sends what is corked too; a batch that fits one piece keeps its Content-Length.

@@ -1,8 +1,9 @@
 import { Router, type RequestHandler } from 'express';
 import { z } from '../../../zod.ts';
+import { assertFinite } from '../../../../shared/calculations/finite.ts';
 import { CABLE_CATALOG, cableLossDbPer100m, findCable, type CableType } from '../../../../shared/rf/cables.ts';
 import { M_PER_FT } from '../../../../shared/rf/constants.ts';
-import { CableAttenuationQuerySchema, CableAttenuationSchema, CableIdParamsSchema } from '../../../../shared/schemas/calc.ts';
+import { CableAttenuationQuerySchema, CableAttenuationSchema, CableIdParamsSchema } from '../../../../shared/schemas/calculations.ts';
 import {
   AccountCableIdParamsSchema,
   accountCableIdFrom,
@@ -12,15 +13,24 @@ import {
   UpdateAccountCableSchema,
 } from '../../../../shared/schemas/cables.ts';
 import type { AppContext } from '../../../context.ts';
-import { callerOf, calculationGuard, requireAdmin, requireCaller, requireSession } from '../../../auth/caller.ts';
-import { authProblems, keyOrSession, meteredProblems, rateLimitHeaders, sessionOnly } from '../../../auth/openapi.ts';
+import { callerOf, requireAdmin, requireCaller, requireSession } from '../../../auth/caller.ts';
+import { calculationGuard } from '../../../quota/meter.ts';
+import { authProblems, keyOrSession, sessionOnly } from '../../../auth/openapi.ts';
+import { meteredProblems, rateLimitHeaders } from '../../../quota/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
-import { validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
+import { input, validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
 import { calculationProblems, problemResponses, registry, json } from '../../../openapi/registry.ts';
-import { assertFinite } from '../calc/operations.ts';
-import { memberActor } from '../members/members.repository.ts';
-import { recordAudit } from '../audit/audit.repository.ts';
-import { deleteAccountCable, feedlinesUsingCable, findAccountCables, insertAccountCable, listAccountCables, updateAccountCable } from './cables.repository.ts';
+import { findAccountCables, listAccountCables } from './cables.repository.ts';
+import { addAccountCable, changeAccountCable, removeAccountCable } from './cables.service.ts';
+
+declare global {
+  namespace Express {
+    interface Locals {
+      /** The cable of the `:id` in the path (catalog or account), found by `findOr404`. */
+      cable?: Entry;
+    }
+  }
+}
 
 const tags = ['Cables'];
 
@@ -35,9 +45,9 @@ registry.registerPath({
   tags,
   summary: 'The cable catalog and your organisation\'s cables',
   description:
-    'Generic cable types by trade designation (`origin: "catalog"`), with impedance, velocity factor, attenuation model, voltage rating where known, and the source of each entry; then the cables admins of your organisation defined (`origin: "account"`, ids starting with `account-`). Any of these ids works as `cableId` everywhere.',
+    'Generic cable types by trade designation (`origin: "catalog"`), with impedance, velocity factor, attenuation model, voltage rating where known, and the source of each entry; then the cables admins of your organisation defined (`origin: "account"`, ids starting with `account-`). Any of these ids works as `cableId` everywhere. One calculation unit (the list is one page).',
   security: keyOrSession,
-  responses: { 200: { description: 'Every cable you can use.', ...json(CableListSchema) }, ...authProblems.unauthenticated },
+  responses: { 200: { description: 'Every cable you can use.', headers: rateLimitHeaders, ...json(CableListSchema) }, ...meteredProblems },
 });
 
 registry.registerPath({
@@ -46,9 +56,10 @@ registry.registerPath({
   operationId: 'getCable',
   tags,
   summary: 'One cable',
+  description: 'One calculation unit.',
   security: keyOrSession,
   request: { params: CableIdParamsSchema },
-  responses: { 200: { description: 'The cable.', ...json(CableEntrySchema) }, ...authProblems.unauthenticated, ...problemResponses.notFound },
+  responses: { 200: { description: 'The cable.', headers: rateLimitHeaders, ...json(CableEntrySchema) }, ...problemResponses.validation, ...meteredProblems, ...problemResponses.notFound },
 });
 
 registry.registerPath({
@@ -131,13 +142,13 @@ export function cablesRouter(ctx: AppContext): Router {
   const db = ctx.database.db;
   const admin = [requireSession(ctx), requireAdmin];
 
-  router.get('/cables', requireCaller(ctx), async (_req, res) => {
+  router.get('/cables', ...calculationGuard(ctx, 'cableList'), async (_req, res) => {
     const own = await listAccountCables(db, callerOf(res).organisationId);
     res.json({ cables: [...CABLE_CATALOG.map(catalogEntry), ...own.map(accountEntry)] });
   });
 
   const findOr404: RequestHandler = async (_req, res, next) => {
-    const { id } = res.locals.params as z.infer<typeof CableIdParamsSchema>;
+    const { id } = input(res, CableIdParamsSchema);
     const catalog = findCable(id);
     if (catalog) {
       res.locals.cable = catalogEntry(catalog);
@@ -149,8 +160,8 @@ export function cablesRouter(ctx: AppContext): Router {
     next();
   };
 
-  router.get('/cables/:id', requireCaller(ctx), validateParams(CableIdParamsSchema), findOr404, (_req, res) => {
-    res.json(res.locals.cable);
+  router.get('/cables/:id', ...calculationGuard(ctx, 'cableRead'), validateParams(CableIdParamsSchema), findOr404, (_req, res) => {
+    res.json(res.locals.cable!);
   });
 
   router.get(
@@ -160,8 +171,8 @@ export function cablesRouter(ctx: AppContext): Router {
     findOr404,
     validateQuery(CableAttenuationQuerySchema),
     (_req, res) => {
-      const { frequencyHz, lengthM, lengthFt } = res.locals.query as z.infer<typeof CableAttenuationQuerySchema>;
-      const cable = res.locals.cable as CableType;
+      const { frequencyHz, lengthM, lengthFt } = input(res, CableAttenuationQuerySchema);
+      const cable = res.locals.cable!;
       const lossDbPer100m = cableLossDbPer100m(cable, frequencyHz);
       const length = lengthM ?? (lengthFt === undefined ? undefined : lengthFt * M_PER_FT);
       const body: z.input<typeof CableAttenuationSchema> = {
@@ -176,17 +187,9 @@ export function cablesRouter(ctx: AppContext): Router {
   );
 
   router.post('/cables', ...admin, validateBody(CreateAccountCableSchema), async (_req, res) => {
-    const caller = callerOf(res);
-    const { id, ...values } = res.locals.body as z.infer<typeof CreateAccountCableSchema>;
+    const { id, ...values } = input(res, CreateAccountCableSchema);
     const cableId = id ?? accountCableIdFrom(values.designation);
-    const actor = await memberActor(db, caller);
-    const created = await db.transaction(async (tx) => {
-      const row = await insertAccountCable(tx, { ...values, organisationId: caller.organisationId, cableId, createdBy: caller.userId });
-      if (row) {
-        await recordAudit(tx, { organisationId: caller.organisationId, actor, action: 'cable.added', targetType: 'cable', targetId: row.rowId, details: { cableId, designation: values.designation } });
-      }
-      return row;
-    });
+    const created = await addAccountCable(db, callerOf(res), cableId, values);
     if (!created) {
       throw new ApiError('conflict', `Your organisation already has a cable '${cableId}'; choose another id (field id) or change that cable with PATCH /api/v1/cables/${cableId}.`, {
         errors: [{ field: 'id', message: `'${cableId}' is taken` }],
@@ -196,33 +199,15 @@ export function cablesRouter(ctx: AppContext): Router {
   });
 
   router.patch('/cables/:id', ...admin, validateParams(AccountCableIdParamsSchema), validateBody(UpdateAccountCableSchema), async (_req, res) => {
-    const { id } = res.locals.params as { id: string };
-    const caller = callerOf(res);
-    const change = res.locals.body as z.infer<typeof UpdateAccountCableSchema>;
-    const actor = await memberActor(db, caller);
-    const updated = await db.transaction(async (tx) => {
-      const row = await updateAccountCable(tx, { organisationId: caller.organisationId, cableId: id }, change);
-      if (row) await recordAudit(tx, { organisationId: caller.organisationId, actor, action: 'cable.changed', targetType: 'cable', targetId: row.rowId, details: { cableId: id, changed: Object.keys(change) } });
-      return row;
-    });
+    const { id } = input(res, AccountCableIdParamsSchema);
+    const updated = await changeAccountCable(db, callerOf(res), id, input(res, UpdateAccountCableSchema));
     if (!updated) throw notFound(id);
     res.json(accountEntry(updated.cable));
   });
 
   router.delete('/cables/:id', ...admin, validateParams(AccountCableIdParamsSchema), async (_req, res) => {
-    const { id } = res.locals.params as { id: string };
-    const caller = callerOf(res);
-    const scope = { organisationId: caller.organisationId, cableId: id };
-    const actor = await memberActor(db, caller);
-    await db.transaction(async (tx) => {
-      const users = await feedlinesUsingCable(tx, scope);
-      if (users.length > 0) {
-        throw new ApiError('conflict', `The cable '${id}' is used by the feed line(s) ${users.map((n) => `"${n}"`).join(', ')}; change their sections first (PATCH /api/v1/feedlines/{id}).`);
-      }
-      const removed = await deleteAccountCable(tx, scope);
-      if (!removed) throw notFound(id);
-      await recordAudit(tx, { organisationId: caller.organisationId, actor, action: 'cable.removed', targetType: 'cable', targetId: removed, details: { cableId: id } });
-    });
+    const { id } = input(res, AccountCableIdParamsSchema);
+    if (!(await removeAccountCable(db, callerOf(res), id))) throw notFound(id);
     res.status(204).end();
   });
 

@@ -1,7 +1,7 @@
 import { Router, type RequestHandler } from 'express';
 import type { z } from 'zod';
-import { cascadeLines } from '../../../../shared/rf/line.ts';
-import { toComplex } from '../../../../shared/schemas/common.ts';
+import { assertFinite } from '../../../../shared/calculations/finite.ts';
+import { feedlineLengthM } from '../../../../shared/calculations/feedlines.ts';
 import {
   CreateFeedlineSchema,
   FeedlineIdParamsSchema,
@@ -12,19 +12,26 @@ import {
   FeedlineReferResultSchema,
   FeedlineSchema,
   UpdateFeedlineSchema,
-  type FeedlineSection,
 } from '../../../../shared/schemas/feedlines.ts';
 import type { AppContext } from '../../../context.ts';
-import { callerOf, calculationGuard, requireCaller } from '../../../auth/caller.ts';
-import { authProblems, keyOrSession, meteredProblems, rateLimitHeaders } from '../../../auth/openapi.ts';
+import { callerOf, requireCaller } from '../../../auth/caller.ts';
+import { calculationGuard } from '../../../quota/meter.ts';
+import { authProblems, keyOrSession } from '../../../auth/openapi.ts';
+import { meteredProblems, rateLimitHeaders } from '../../../quota/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
-import { validateBody, validateParams } from '../../../http/validate.ts';
+import { input, validateBody, validateParams } from '../../../http/validate.ts';
 import { calculationProblems, problemResponses, registry, json } from '../../../openapi/registry.ts';
-import { assertFinite, referThroughModels } from '../calc/operations.ts';
-import { calculationEnvFor, cableIdsIn } from '../cables/cables.env.ts';
 import { deleteFeedline, findFeedline, insertFeedline, listFeedlines, updateFeedline, type FeedlineRecord } from './feedlines.repository.ts';
-import { sectionModels } from '../calc/line-models.ts';
-import { assertCablesKnown, feedlineLengthM } from './feedlines.service.ts';
+import { assertFeedlineCablesKnown, referThroughFeedline, transformThroughFeedline } from './feedlines.service.ts';
+
+declare global {
+  namespace Express {
+    interface Locals {
+      /** The feed line of the `:id` in the path, loaded by `load`. */
+      feedline?: FeedlineRecord;
+    }
+  }
+}
 
 const tags = ['Feed lines'];
 const params = { params: FeedlineIdParamsSchema };
@@ -41,8 +48,9 @@ registry.registerPath({
   operationId: 'listFeedlines',
   tags,
   summary: 'List your organisation\'s saved feed lines',
+  description: 'One calculation unit (the list is one page).',
   security: keyOrSession,
-  responses: { 200: { description: 'Feed lines, oldest first.', ...json(FeedlineListSchema) }, ...authProblems.unauthenticated },
+  responses: { 200: { description: 'Feed lines, oldest first.', headers: rateLimitHeaders, ...json(FeedlineListSchema) }, ...meteredProblems },
 });
 
 registry.registerPath({
@@ -70,9 +78,10 @@ registry.registerPath({
   operationId: 'getFeedline',
   tags,
   summary: 'One saved feed line',
+  description: 'One calculation unit.',
   security: keyOrSession,
   request: params,
-  responses: { 200: { description: 'The feed line.', ...json(FeedlineSchema) }, ...problemResponses.validation, ...authProblems.unauthenticated, ...problemResponses.notFound },
+  responses: { 200: { description: 'The feed line.', headers: rateLimitHeaders, ...json(FeedlineSchema) }, ...problemResponses.validation, ...meteredProblems, ...problemResponses.notFound },
 });
 
 registry.registerPath({
@@ -148,46 +157,42 @@ export function feedlinesRouter(ctx: AppContext): Router {
   const db = ctx.database.db;
   const caller = requireCaller(ctx);
 
-  const checkCables = async (organisationId: string, sections: FeedlineSection[]) => {
-    assertCablesKnown(sections, await calculationEnvFor(db, organisationId, cableIdsIn(sections)));
-  };
-
   const load: RequestHandler = async (_req, res, next) => {
-    const { id } = res.locals.params as { id: string };
+    const { id } = input(res, FeedlineIdParamsSchema);
     const found = await findFeedline(db, { organisationId: callerOf(res).organisationId, id });
     if (!found) throw notFound();
     res.locals.feedline = found;
     next();
   };
 
-  router.get('/feedlines', caller, async (_req, res) => {
+  router.get('/feedlines', ...calculationGuard(ctx, 'feedlineList'), async (_req, res) => {
     res.json({ feedlines: (await listFeedlines(db, callerOf(res).organisationId)).map(view) });
   });
 
   router.post('/feedlines', caller, validateBody(CreateFeedlineSchema), async (_req, res) => {
     const who = callerOf(res);
-    const body = res.locals.body as z.infer<typeof CreateFeedlineSchema>;
-    await checkCables(who.organisationId, body.sections);
+    const body = input(res, CreateFeedlineSchema);
+    await assertFeedlineCablesKnown(db, who.organisationId, body.sections);
     const created = await insertFeedline(db, { organisationId: who.organisationId, createdBy: who.userId, ...body });
     res.status(201).json(view(created));
   });
 
-  router.get('/feedlines/:id', caller, validateParams(FeedlineIdParamsSchema), load, (_req, res) => {
-    res.json(view(res.locals.feedline as FeedlineRecord));
+  router.get('/feedlines/:id', ...calculationGuard(ctx, 'feedlineRead'), validateParams(FeedlineIdParamsSchema), load, (_req, res) => {
+    res.json(view(res.locals.feedline!));
   });
 
   router.patch('/feedlines/:id', caller, validateParams(FeedlineIdParamsSchema), validateBody(UpdateFeedlineSchema), async (_req, res) => {
     const who = callerOf(res);
-    const { id } = res.locals.params as { id: string };
-    const changes = res.locals.body as z.infer<typeof UpdateFeedlineSchema>;
-    if (changes.sections) await checkCables(who.organisationId, changes.sections);
+    const { id } = input(res, FeedlineIdParamsSchema);
+    const changes = input(res, UpdateFeedlineSchema);
+    if (changes.sections) await assertFeedlineCablesKnown(db, who.organisationId, changes.sections);
     const updated = await updateFeedline(db, { organisationId: who.organisationId, id }, changes);
     if (!updated) throw notFound();
     res.json(view(updated));
   });
 
   router.delete('/feedlines/:id', caller, validateParams(FeedlineIdParamsSchema), async (_req, res) => {
-    const { id } = res.locals.params as { id: string };
+    const { id } = input(res, FeedlineIdParamsSchema);
     if (!(await deleteFeedline(db, { organisationId: callerOf(res).organisationId, id }))) throw notFound();
     res.status(204).end();
   });
@@ -199,11 +204,7 @@ export function feedlinesRouter(ctx: AppContext): Router {
     validateBody(FeedlineLineRequestSchema),
     load,
     async (_req, res) => {
-      const feedline = res.locals.feedline as FeedlineRecord;
-      const input = res.locals.body as z.infer<typeof FeedlineLineRequestSchema>;
-      const env = await calculationEnvFor(db, callerOf(res).organisationId, cableIdsIn(feedline.sections));
-      const models = sectionModels(feedline.sections, input.frequencyHz, env);
-      const result: z.input<typeof FeedlineLineResultSchema> = cascadeLines(models, toComplex(input.loadOhm), input.frequencyHz, input.powerW);
+      const result = await transformThroughFeedline(db, callerOf(res).organisationId, res.locals.feedline!.sections, input(res, FeedlineLineRequestSchema));
       res.json(assertFinite(result));
     },
   );
@@ -215,11 +216,7 @@ export function feedlinesRouter(ctx: AppContext): Router {
     validateBody(FeedlineReferRequestSchema),
     load,
     async (_req, res) => {
-      const feedline = res.locals.feedline as FeedlineRecord;
-      const input = res.locals.body as z.infer<typeof FeedlineReferRequestSchema>;
-      const env = await calculationEnvFor(db, callerOf(res).organisationId, cableIdsIn(feedline.sections));
-      const reading = input.reading as Parameters<typeof referThroughModels>[2];
-      const result: z.input<typeof FeedlineReferResultSchema> = referThroughModels(sectionModels(feedline.sections, input.frequencyHz, env), input.direction, reading);
+      const result = await referThroughFeedline(db, callerOf(res).organisationId, res.locals.feedline!.sections, input(res, FeedlineReferRequestSchema));
       res.json(assertFinite(result));
     },
   );

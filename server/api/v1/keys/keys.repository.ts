@@ -1,10 +1,11 @@
 import { and, asc, eq, getTableColumns, isNull, sql, type SQL } from 'drizzle-orm';
-import type { Db } from '../../../db/client.ts';
-import { apiKeys, keyQuotaDays, users } from '../../../db/schema.ts';
+import { KEY_CHANGES_CHANNEL } from '../../../auth/key-changes.ts';
+import type { Db, DbOrTx, Tx } from '../../../db/client.ts';
+import { apiKeys, keyQuotaDays, organisations, users } from '../../../db/schema.ts';
 import type { ApiKeyView } from './keys.schemas.ts';
 
-type Tx = Parameters<Parameters<Db['transaction']>[0]>[0];
-export type DbOrTx = Db | Tx;
+// Until every repository imports it from the database client (the sweeps, feed lines and cables ones still import it from here).
+export type { DbOrTx };
 
 // List and read queries never select the hash.
 const { keyHash: _hash, ...publicKeyColumns } = getTableColumns(apiKeys);
@@ -25,7 +26,7 @@ function keyView() {
 
 type KeyRow = Awaited<ReturnType<typeof selectKeys>>[number];
 
-function selectKeys(db: DbOrTx, where: SQL | undefined, now: Date, day: string) {
+function selectKeys(db: DbOrTx, where: SQL | undefined, day: string) {
   return db
     .select(keyView())
     .from(apiKeys)
@@ -51,6 +52,7 @@ export function toApiKeyView(row: KeyRow, now: Date): ApiKeyView {
     owner: { id: row.userId, email: row.ownerEmail, displayName: row.ownerName },
     dailyQuota: row.dailyQuota,
     burstPerMinute: row.burstPerMinute,
+    allowedOrigins: row.allowedOrigins,
     usedToday: row.usedToday,
     state,
     expiresAt: row.expiresAt?.toISOString() ?? null,
@@ -62,54 +64,86 @@ export function toApiKeyView(row: KeyRow, now: Date): ApiKeyView {
 }
 
 /** Keys of one organisation, optionally of one owner. */
-export async function listKeys(db: DbOrTx, q: { organisationId: string; userId?: string; now: Date; day: string }): Promise<ApiKeyView[]> {
-  const rows = await selectKeys(db, and(eq(apiKeys.organisationId, q.organisationId), q.userId ? eq(apiKeys.userId, q.userId) : undefined), q.now, q.day);
-  return rows.map((r) => toApiKeyView(r, q.now));
+export async function listKeys(db: DbOrTx, scope: { organisationId: string; userId?: string; now: Date; day: string }): Promise<ApiKeyView[]> {
+  const rows = await selectKeys(db, and(eq(apiKeys.organisationId, scope.organisationId), scope.userId ? eq(apiKeys.userId, scope.userId) : undefined), scope.day);
+  return rows.map((row) => toApiKeyView(row, scope.now));
 }
 
 /** One key of the organisation (and of the owner, when given); undefined when there is none. */
-export async function findKey(db: DbOrTx, q: { organisationId: string; keyId: string; userId?: string; now: Date; day: string }): Promise<ApiKeyView | undefined> {
+export async function findKey(db: DbOrTx, scope: { organisationId: string; keyId: string; userId?: string; now: Date; day: string }): Promise<ApiKeyView | undefined> {
   const rows = await selectKeys(
     db,
-    and(eq(apiKeys.organisationId, q.organisationId), eq(apiKeys.id, q.keyId), q.userId ? eq(apiKeys.userId, q.userId) : undefined),
-    q.now,
-    q.day,
+    and(eq(apiKeys.organisationId, scope.organisationId), eq(apiKeys.id, scope.keyId), scope.userId ? eq(apiKeys.userId, scope.userId) : undefined),
+    scope.day,
   );
-  return rows[0] ? toApiKeyView(rows[0], q.now) : undefined;
+  return rows[0] ? toApiKeyView(rows[0], scope.now) : undefined;
+}
+
+/** The member a new key is for, with the organisation's default limits; undefined when not a member of it. */
+export async function findKeyOwner(db: DbOrTx, scope: { organisationId: string; userId: string }) {
+  const rows = await db
+    .select({ id: users.id, disabled: users.disabled, defaultDailyQuota: organisations.defaultDailyQuota, defaultBurstPerMinute: organisations.defaultBurstPerMinute })
+    .from(users)
+    .innerJoin(organisations, eq(organisations.id, users.organisationId))
+    .where(and(eq(users.id, scope.userId), eq(users.organisationId, scope.organisationId)));
+  return rows[0];
 }
 
 export async function insertKey(
   db: DbOrTx,
-  v: { organisationId: string; userId: string; name: string; note: string; keyHash: string; displayStart: string; dailyQuota: number; burstPerMinute: number; expiresAt: Date | null; createdBy: string | null },
+  values: {
+    organisationId: string;
+    userId: string;
+    name: string;
+    note: string;
+    keyHash: string;
+    displayStart: string;
+    dailyQuota: number;
+    burstPerMinute: number;
+    allowedOrigins: string[];
+    expiresAt: Date | null;
+    createdBy: string | null;
+  },
 ): Promise<string> {
-  const [row] = await db.insert(apiKeys).values(v).returning({ id: apiKeys.id });
-  return row!.id;
+  const [row] = await db.insert(apiKeys).values(values).returning({ id: apiKeys.id });
+  const id = row!.id;
+  // The triggers announce changes, not new keys; a new browser origin is announced here so that every
+  // process answers its preflights at once (server/auth/origins.ts).
+  if (values.allowedOrigins.length > 0) await db.execute(sql`select pg_notify(${KEY_CHANGES_CHANNEL}, ${`key:${id}`})`);
+  return id;
 }
 
 /** Revokes a live key; undefined when there is no such key or it was already revoked. */
-export async function markRevoked(db: DbOrTx, q: { organisationId: string; keyId: string; userId?: string }): Promise<{ id: string } | undefined> {
+export async function markRevoked(db: DbOrTx, scope: { organisationId: string; keyId: string; userId?: string }): Promise<{ id: string } | undefined> {
   const rows = await db
     .update(apiKeys)
     .set({ revokedAt: sql`now()` })
-    .where(and(eq(apiKeys.organisationId, q.organisationId), eq(apiKeys.id, q.keyId), q.userId ? eq(apiKeys.userId, q.userId) : undefined, isNull(apiKeys.revokedAt)))
+    .where(and(eq(apiKeys.organisationId, scope.organisationId), eq(apiKeys.id, scope.keyId), scope.userId ? eq(apiKeys.userId, scope.userId) : undefined, isNull(apiKeys.revokedAt)))
     .returning({ id: apiKeys.id });
   return rows[0];
 }
 
 export async function updateKeyFields(
   db: DbOrTx,
-  q: { organisationId: string; keyId: string },
-  set: Partial<{ name: string; note: string; dailyQuota: number; burstPerMinute: number }>,
+  scope: { organisationId: string; keyId: string },
+  changes: Partial<{ name: string; note: string; dailyQuota: number; burstPerMinute: number; allowedOrigins: string[] }>,
 ): Promise<void> {
-  await db.update(apiKeys).set(set).where(and(eq(apiKeys.organisationId, q.organisationId), eq(apiKeys.id, q.keyId)));
+  await db.update(apiKeys).set(changes).where(and(eq(apiKeys.organisationId, scope.organisationId), eq(apiKeys.id, scope.keyId)));
 }
 
 /** Quota fields before a change, read under a row lock so the audit shows the true "before". */
-export async function lockKeyLimits(db: Tx, q: { organisationId: string; keyId: string; userId?: string }) {
+export async function lockKeyLimits(db: Tx, scope: { organisationId: string; keyId: string; userId?: string }) {
   const rows = await db
-    .select({ id: apiKeys.id, dailyQuota: apiKeys.dailyQuota, burstPerMinute: apiKeys.burstPerMinute, name: apiKeys.name, note: apiKeys.note })
+    .select({
+      id: apiKeys.id,
+      dailyQuota: apiKeys.dailyQuota,
+      burstPerMinute: apiKeys.burstPerMinute,
+      name: apiKeys.name,
+      note: apiKeys.note,
+      allowedOrigins: apiKeys.allowedOrigins,
+    })
     .from(apiKeys)
-    .where(and(eq(apiKeys.organisationId, q.organisationId), eq(apiKeys.id, q.keyId), q.userId ? eq(apiKeys.userId, q.userId) : undefined))
+    .where(and(eq(apiKeys.organisationId, scope.organisationId), eq(apiKeys.id, scope.keyId), scope.userId ? eq(apiKeys.userId, scope.userId) : undefined))
     .for('update');
   return rows[0];
 }

@@ -3,10 +3,9 @@ import type { AppContext } from '../../../context.ts';
 import { callerOf, requireSession } from '../../../auth/caller.ts';
 import { authProblems, sessionOnly } from '../../../auth/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
-import { validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
+import { input, validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
 import { problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { utcDay } from '../../../quota/day.ts';
-import { keyServicesFor } from '../../../auth/key-services.ts';
 import { memberActor } from '../members/members.repository.ts';
 import { findKey, listKeys } from './keys.repository.ts';
 import {
@@ -17,8 +16,6 @@ import {
   KeyIdParamsSchema,
   ListKeysQuerySchema,
   UpdateApiKeySchema,
-  type CreateApiKey,
-  type UpdateApiKey,
 } from './keys.schemas.ts';
 import { createKey, revokeKey, updateKey } from './keys.service.ts';
 
@@ -44,7 +41,8 @@ registry.registerPath({
   summary: 'Issue a key',
   description:
     'Issues a key for yourself, or (admins) for any member. The answer holds the secret; it is shown this once. ' +
-    'Quota fields are for admins; without them the key gets the organisation defaults. Audited.',
+    'Quota fields are for admins; without them the key gets the organisation defaults. `allowedOrigins` lists the web pages ' +
+    'that may use the key from a browser (none by default). Audited.',
   security: sessionOnly,
   request: { body: { required: true, ...json(CreateApiKeySchema) } },
   responses: {
@@ -75,7 +73,9 @@ registry.registerPath({
   operationId: 'updateKey',
   tags,
   summary: 'Rename a key or change its limits',
-  description: 'Owners may change name and note; only admins may change `dailyQuota` and `burstPerMinute` (audited). New limits apply from the next request.',
+  description:
+    'Owners may change name, note and `allowedOrigins`; only admins may change `dailyQuota` and `burstPerMinute` (audited). ' +
+    'New limits and origins apply from the next request, on every server.',
   security: sessionOnly,
   request: { params: KeyIdParamsSchema, body: { required: true, ...json(UpdateApiKeySchema) } },
   responses: {
@@ -111,7 +111,7 @@ export function keysRouter(ctx: AppContext): Router {
 
   router.get('/keys', session, validateQuery(ListKeysQuerySchema), async (_req, res) => {
     const caller = callerOf(res);
-    const query = res.locals.query as { ownerId?: string };
+    const query = input(res, ListKeysQuerySchema);
     const now = ctx.clock.now();
     const userId = caller.role === 'admin' ? query.ownerId : caller.userId;
     const keys = await listKeys(ctx.database.db, { organisationId: caller.organisationId, userId, now, day: utcDay(now) });
@@ -120,7 +120,7 @@ export function keysRouter(ctx: AppContext): Router {
 
   router.post('/keys', session, validateBody(CreateApiKeySchema), async (_req, res) => {
     const caller = callerOf(res);
-    const body = res.locals.body as CreateApiKey;
+    const body = input(res, CreateApiKeySchema);
     if (caller.role !== 'admin') {
       if (body.ownerId && body.ownerId !== caller.userId) throw new ApiError('forbidden', 'Developers issue keys for themselves only; leave out ownerId or ask an admin.');
       if (body.dailyQuota !== undefined || body.burstPerMinute !== undefined) {
@@ -137,6 +137,7 @@ export function keysRouter(ctx: AppContext): Router {
         expiresAt: body.expiresAt ? new Date(body.expiresAt) : undefined,
         dailyQuota: body.dailyQuota,
         burstPerMinute: body.burstPerMinute,
+        allowedOrigins: body.allowedOrigins,
         actor: await memberActor(ctx.database.db, caller),
       },
       ctx.clock.now(),
@@ -146,7 +147,7 @@ export function keysRouter(ctx: AppContext): Router {
 
   router.get('/keys/:id', session, validateParams(KeyIdParamsSchema), async (_req, res) => {
     const caller = callerOf(res);
-    const { id } = res.locals.params as { id: string };
+    const { id } = input(res, KeyIdParamsSchema);
     const now = ctx.clock.now();
     const key = await findKey(ctx.database.db, {
       organisationId: caller.organisationId,
@@ -161,8 +162,8 @@ export function keysRouter(ctx: AppContext): Router {
 
   router.patch('/keys/:id', session, validateParams(KeyIdParamsSchema), validateBody(UpdateApiKeySchema), async (_req, res) => {
     const caller = callerOf(res);
-    const { id } = res.locals.params as { id: string };
-    const changes = res.locals.body as UpdateApiKey;
+    const { id } = input(res, KeyIdParamsSchema);
+    const changes = input(res, UpdateApiKeySchema);
     if (caller.role !== 'admin' && (changes.dailyQuota !== undefined || changes.burstPerMinute !== undefined)) {
       throw new ApiError('forbidden', 'Only admins change quotas; ask an admin of your organisation.');
     }
@@ -178,19 +179,19 @@ export function keysRouter(ctx: AppContext): Router {
       ctx.clock.now(),
     );
     // The database trigger announces the change to every process; this one forgets the key at once.
-    keyServicesFor(ctx.database, ctx.logger).cache.forget(`key:${id}`);
+    ctx.keyServices.cache.forget(`key:${id}`);
     res.json(key);
   });
 
   router.delete('/keys/:id', session, validateParams(KeyIdParamsSchema), async (_req, res) => {
     const caller = callerOf(res);
-    const { id } = res.locals.params as { id: string };
+    const { id } = input(res, KeyIdParamsSchema);
     const key = await revokeKey(
       ctx.database.db,
       { organisationId: caller.organisationId, keyId: id, ownerId: caller.role === 'admin' ? undefined : caller.userId, actor: await memberActor(ctx.database.db, caller) },
       ctx.clock.now(),
     );
-    keyServicesFor(ctx.database, ctx.logger).cache.forget(`key:${id}`);
+    ctx.keyServices.cache.forget(`key:${id}`);
     res.json(key);
   });
 

@@ -2,6 +2,46 @@ import { z } from '../../../zod.ts';
 
 export const KEY_STATES = ['active', 'revoked', 'expired', 'owner-disabled'] as const;
 
+/** Origins one key may list: a browser key belongs to one site and a few of its hosts. */
+export const MAX_ALLOWED_ORIGINS = 20;
+
+/**
+ * `value` as the exact origin a browser sends in its `Origin` header (`scheme://host[:port]`, lower
+ * case, default port left out, no path), or undefined when it names no http(s) origin at all.
+ */
+export function originOf(value: string): string | undefined {
+  if (!URL.canParse(value)) return undefined;
+  const url = new URL(value);
+  return url.protocol === 'https:' || url.protocol === 'http:' ? url.origin : undefined;
+}
+
+const OriginSchema = z
+  .string()
+  .max(300)
+  .superRefine((value, ctx) => {
+    const origin = originOf(value);
+    if (origin === value) return;
+    ctx.addIssue({
+      code: 'custom',
+      message: origin
+        ? `write the origin exactly as browsers send it: ${origin} (lower case, no path or trailing slash, no default port)`
+        : 'an origin is scheme://host[:port] with http or https, e.g. https://log.example.org',
+    });
+  })
+  .openapi({ example: 'https://log.example.org' });
+
+export const AllowedOriginsSchema = z
+  .array(OriginSchema)
+  .max(MAX_ALLOWED_ORIGINS, `at most ${MAX_ALLOWED_ORIGINS} origins per key; issue another key for another site`)
+  .refine((origins) => new Set(origins).size === origins.length, { message: 'list each origin once' })
+  .openapi({
+    description:
+      'Exact origins (`scheme://host[:port]`) of the web pages that may call the API with this key from a browser. ' +
+      'A request carrying an `Origin` header outside this list is refused with 403; an empty list allows no browser page. ' +
+      'Requests without `Origin` (servers, programs) are not affected.',
+    example: ['https://log.example.org'],
+  });
+
 export const MemberRefSchema = z
   .object({
     id: z.uuid(),
@@ -19,6 +59,10 @@ export const ApiKeySchema = z
     owner: MemberRefSchema,
     dailyQuota: z.number().int().openapi({ description: 'Calculation units per UTC day.', example: 10000 }),
     burstPerMinute: z.number().int().openapi({ description: 'Requests per minute, whatever they cost.', example: 120 }),
+    allowedOrigins: z.array(z.string()).openapi({
+      description: 'Exact origins of the web pages that may use the key from a browser; empty: none (servers and programs are not affected).',
+      example: [],
+    }),
     usedToday: z.number().int().openapi({ description: 'Units spent so far today (UTC).', example: 42 }),
     state: z.enum(KEY_STATES).openapi({ description: '`active` keys work; the others are refused with 401.', example: 'active' }),
     expiresAt: z.string().nullable().openapi({ description: 'ISO 8601 instant after which the key is refused; null: never.', example: null }),
@@ -58,6 +102,7 @@ export const CreateApiKeySchema = z
     ownerId: z.uuid().optional().openapi({ description: 'Member who will own the key (admins only; default: yourself).' }),
     dailyQuota: Quota.optional(),
     burstPerMinute: Burst.optional(),
+    allowedOrigins: AllowedOriginsSchema.default([]),
   })
   .openapi('CreateApiKey', { description: 'Without quota fields the key gets the organisation defaults.' });
 
@@ -67,8 +112,9 @@ export const UpdateApiKeySchema = z
     note: z.string().max(500).optional(),
     dailyQuota: Quota.optional(),
     burstPerMinute: Burst.optional(),
+    allowedOrigins: AllowedOriginsSchema.optional(),
   })
-  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one of name, note, dailyQuota, burstPerMinute', params: { shape: true } })
+  .refine((v) => Object.keys(v).length > 0, { message: 'send at least one of name, note, dailyQuota, burstPerMinute, allowedOrigins', params: { shape: true } })
   .openapi('UpdateApiKey');
 
 export const KeyIdParamsSchema = z.object({ id: z.uuid({ message: 'key ids are UUIDs, as listed by GET /api/v1/keys' }) });

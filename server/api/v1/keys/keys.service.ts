@@ -1,11 +1,9 @@
-import { and, eq, sql } from 'drizzle-orm';
 import type { Db } from '../../../db/client.ts';
-import { organisations, users } from '../../../db/schema.ts';
 import { generateApiKey } from '../../../auth/api-key.ts';
 import { ApiError } from '../../../http/problem.ts';
 import { utcDay } from '../../../quota/day.ts';
 import { recordAudit, type Actor } from '../audit/audit.repository.ts';
-import { findKey, insertKey, lockKeyLimits, markRevoked, updateKeyFields } from './keys.repository.ts';
+import { findKey, findKeyOwner, insertKey, lockKeyLimits, markRevoked, updateKeyFields } from './keys.repository.ts';
 import type { ApiKeyView } from './keys.schemas.ts';
 
 export interface CreateKeyInput {
@@ -16,6 +14,8 @@ export interface CreateKeyInput {
   expiresAt?: Date;
   dailyQuota?: number;
   burstPerMinute?: number;
+  /** Exact browser origins that may use the key (validated by AllowedOriginsSchema); none by default. */
+  allowedOrigins?: string[];
   actor: Actor;
 }
 
@@ -28,12 +28,7 @@ export async function createKey(db: Db, input: CreateKeyInput, now: Date): Promi
   }
   const fresh = generateApiKey();
   const keyId = await db.transaction(async (tx) => {
-    const owners = await tx
-      .select({ id: users.id, disabled: users.disabled, defaultDailyQuota: organisations.defaultDailyQuota, defaultBurstPerMinute: organisations.defaultBurstPerMinute })
-      .from(users)
-      .innerJoin(organisations, eq(organisations.id, users.organisationId))
-      .where(and(eq(users.id, input.ownerId), eq(users.organisationId, input.organisationId)));
-    const owner = owners[0];
+    const owner = await findKeyOwner(tx, { organisationId: input.organisationId, userId: input.ownerId });
     if (!owner) throw new ApiError('notFound', 'No member with that id in your organisation; see GET /api/v1/members.');
     if (owner.disabled) throw new ApiError('conflict', 'That member is disabled; enable them (PATCH /api/v1/members/{id}) before issuing keys.');
     const id = await insertKey(tx, {
@@ -45,6 +40,7 @@ export async function createKey(db: Db, input: CreateKeyInput, now: Date): Promi
       displayStart: fresh.displayStart,
       dailyQuota: input.dailyQuota ?? owner.defaultDailyQuota,
       burstPerMinute: input.burstPerMinute ?? owner.defaultBurstPerMinute,
+      allowedOrigins: input.allowedOrigins ?? [],
       expiresAt: input.expiresAt ?? null,
       createdBy: input.actor.userId,
     });
@@ -54,7 +50,13 @@ export async function createKey(db: Db, input: CreateKeyInput, now: Date): Promi
       action: 'key.created',
       targetType: 'key',
       targetId: id,
-      details: { name: input.name, ownerId: owner.id, displayStart: fresh.displayStart, expiresAt: input.expiresAt?.toISOString() ?? null },
+      details: {
+        name: input.name,
+        ownerId: owner.id,
+        displayStart: fresh.displayStart,
+        expiresAt: input.expiresAt?.toISOString() ?? null,
+        ...(input.allowedOrigins?.length ? { allowedOrigins: input.allowedOrigins } : {}),
+      },
     });
     return id;
   });
@@ -63,52 +65,54 @@ export async function createKey(db: Db, input: CreateKeyInput, now: Date): Promi
 }
 
 /** Revokes at once; `ownerId` limits a developer to their own keys. Unknown, foreign and already revoked keys are 404. */
-export async function revokeKey(db: Db, q: { organisationId: string; keyId: string; ownerId?: string; actor: Actor }, now: Date): Promise<ApiKeyView> {
+export async function revokeKey(db: Db, revocation: { organisationId: string; keyId: string; ownerId?: string; actor: Actor }, now: Date): Promise<ApiKeyView> {
+  const { organisationId, keyId } = revocation;
   await db.transaction(async (tx) => {
-    const revoked = await markRevoked(tx, { organisationId: q.organisationId, keyId: q.keyId, userId: q.ownerId });
+    const revoked = await markRevoked(tx, { organisationId, keyId, userId: revocation.ownerId });
     if (!revoked) throw new ApiError('notFound', 'No live key with that id among the keys you manage; GET /api/v1/keys lists them.');
-    await recordAudit(tx, { organisationId: q.organisationId, actor: q.actor, action: 'key.revoked', targetType: 'key', targetId: q.keyId });
+    await recordAudit(tx, { organisationId, actor: revocation.actor, action: 'key.revoked', targetType: 'key', targetId: keyId });
   });
-  const key = await findKey(db, { organisationId: q.organisationId, keyId: q.keyId, now, day: utcDay(now) });
+  const key = await findKey(db, { organisationId, keyId, now, day: utcDay(now) });
   return key!;
 }
 
-/** Renames or re-limits a key; quota changes are audited with before and after. */
+/**
+ * Renames or re-limits a key, or changes the browser origins it serves; quota changes are audited with
+ * before and after. Every process hears of the change through the key-change trigger.
+ */
 export async function updateKey(
   db: Db,
-  q: { organisationId: string; keyId: string; ownerId?: string; actor: Actor; changes: Partial<{ name: string; note: string; dailyQuota: number; burstPerMinute: number }> },
+  update: {
+    organisationId: string;
+    keyId: string;
+    ownerId?: string;
+    actor: Actor;
+    changes: Partial<{ name: string; note: string; dailyQuota: number; burstPerMinute: number; allowedOrigins: string[] }>;
+  },
   now: Date,
 ): Promise<ApiKeyView> {
+  const { organisationId, keyId, changes } = update;
   await db.transaction(async (tx) => {
-    const before = await lockKeyLimits(tx, { organisationId: q.organisationId, keyId: q.keyId, userId: q.ownerId });
+    const before = await lockKeyLimits(tx, { organisationId, keyId, userId: update.ownerId });
     if (!before) throw new ApiError('notFound', 'No key with that id among the keys you manage; GET /api/v1/keys lists them.');
-    await updateKeyFields(tx, { organisationId: q.organisationId, keyId: q.keyId }, q.changes);
+    await updateKeyFields(tx, { organisationId, keyId }, changes);
     const quotaChanged =
-      (q.changes.dailyQuota !== undefined && q.changes.dailyQuota !== before.dailyQuota) ||
-      (q.changes.burstPerMinute !== undefined && q.changes.burstPerMinute !== before.burstPerMinute);
+      (changes.dailyQuota !== undefined && changes.dailyQuota !== before.dailyQuota) ||
+      (changes.burstPerMinute !== undefined && changes.burstPerMinute !== before.burstPerMinute);
     if (quotaChanged) {
       await recordAudit(tx, {
-        organisationId: q.organisationId,
-        actor: q.actor,
+        organisationId,
+        actor: update.actor,
         action: 'key.quota_changed',
         targetType: 'key',
-        targetId: q.keyId,
+        targetId: keyId,
         details: {
           before: { dailyQuota: before.dailyQuota, burstPerMinute: before.burstPerMinute },
-          after: { dailyQuota: q.changes.dailyQuota ?? before.dailyQuota, burstPerMinute: q.changes.burstPerMinute ?? before.burstPerMinute },
+          after: { dailyQuota: changes.dailyQuota ?? before.dailyQuota, burstPerMinute: changes.burstPerMinute ?? before.burstPerMinute },
         },
       });
     }
   });
-  const key = await findKey(db, { organisationId: q.organisationId, keyId: q.keyId, now, day: utcDay(now) });
+  const key = await findKey(db, { organisationId, keyId, now, day: utcDay(now) });
   return key!;
-}
-
-/** For the CLI: the member with this address (any organisation), or undefined. */
-export async function findMemberByEmail(db: Db, email: string) {
-  const rows = await db
-    .select({ id: users.id, organisationId: users.organisationId, email: users.email, disabled: users.disabled })
-    .from(users)
-    .where(sql`lower(${users.email}) = ${email.toLowerCase()}`);
-  return rows[0];
 }

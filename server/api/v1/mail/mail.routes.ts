@@ -1,13 +1,12 @@
 import { Router } from 'express';
-import { and, desc, eq, sql } from 'drizzle-orm';
 import type { AppContext } from '../../../context.ts';
-import { capturedMail } from '../../../db/schema.ts';
 import { callerOf, requireAdmin, requireSession } from '../../../auth/caller.ts';
 import { authProblems, sessionOnly } from '../../../auth/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
-import { validateParams, validateQuery } from '../../../http/validate.ts';
+import { input, validateParams, validateQuery } from '../../../http/validate.ts';
 import { problemResponses, registry } from '../../../openapi/registry.ts';
 import { z } from '../../../zod.ts';
+import { findCapturedMail, listCapturedMail } from './mail.repository.ts';
 
 const SummaryFields = {
   id: z.uuid(),
@@ -70,23 +69,14 @@ export function mailRouter(ctx: AppContext): Router {
   // Captured mail is shown only to admins of the organisation it was sent for (invitation and reset
   // links carry tokens); another organisation's message is as unknown as one that does not exist.
   router.get('/mail', session, requireAdmin, validateQuery(ListQuery), async (_req, res) => {
-    const q = res.locals.query as z.infer<typeof ListQuery>;
-    const own = eq(capturedMail.organisationId, callerOf(res).organisationId);
-    const rows = await db
-      .select({ id: capturedMail.id, from: capturedMail.envelopeFrom, to: capturedMail.envelopeTo, subject: capturedMail.subject, receivedAt: capturedMail.receivedAt })
-      .from(capturedMail)
-      .where(q.to ? and(own, sql`${q.to.toLowerCase()} = any (select lower(x) from unnest(${capturedMail.envelopeTo}) as x)`) : own)
-      .orderBy(desc(capturedMail.receivedAt), desc(capturedMail.id))
-      .limit(q.limit);
-    res.json({ messages: rows.map((r) => ({ ...r, receivedAt: r.receivedAt.toISOString() })) });
+    const { to, limit } = input(res, ListQuery);
+    const rows = await listCapturedMail(db, { organisationId: callerOf(res).organisationId, to, limit });
+    res.json({ messages: rows.map((row) => ({ ...row, receivedAt: row.receivedAt.toISOString() })) });
   });
 
   router.get('/mail/:id', session, requireAdmin, validateParams(IdParams), async (_req, res) => {
-    const { id } = res.locals.params as { id: string };
-    const [row] = await db
-      .select()
-      .from(capturedMail)
-      .where(and(eq(capturedMail.id, id), eq(capturedMail.organisationId, callerOf(res).organisationId)));
+    const { id } = input(res, IdParams);
+    const row = await findCapturedMail(db, { organisationId: callerOf(res).organisationId, id });
     if (!row) throw new ApiError('notFound', 'No captured message with that id; GET /api/v1/mail lists them.');
     res.json({ id: row.id, from: row.envelopeFrom, to: row.envelopeTo, subject: row.subject, receivedAt: row.receivedAt.toISOString(), text: row.textBody, raw: row.raw });
   });

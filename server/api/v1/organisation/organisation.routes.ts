@@ -1,14 +1,12 @@
 import { Router } from 'express';
-import { eq } from 'drizzle-orm';
 import type { AppContext } from '../../../context.ts';
-import { organisations } from '../../../db/schema.ts';
 import { callerOf, requireAdmin, requireCaller, requireSession } from '../../../auth/caller.ts';
 import { authProblems, keyOrSession, sessionOnly } from '../../../auth/openapi.ts';
-import { validateBody } from '../../../http/validate.ts';
+import { input, validateBody } from '../../../http/validate.ts';
 import { problemResponses, registry, json } from '../../../openapi/registry.ts';
 import { z } from '../../../zod.ts';
-import { recordAudit } from '../audit/audit.repository.ts';
-import { memberActor } from '../members/members.repository.ts';
+import { findOrganisation } from './organisation.repository.ts';
+import { updateDefaultLimits } from './organisation.service.ts';
 
 export const OrganisationSchema = z
   .object({
@@ -50,43 +48,15 @@ registry.registerPath({
   responses: { 200: { description: 'The organisation after the change.', ...json(OrganisationSchema) }, ...problemResponses.validation, ...authProblems.unauthenticated, ...authProblems.forbidden },
 });
 
-const columns = {
-  id: organisations.id,
-  name: organisations.name,
-  slug: organisations.slug,
-  defaultDailyQuota: organisations.defaultDailyQuota,
-  defaultBurstPerMinute: organisations.defaultBurstPerMinute,
-};
-
 export function organisationRouter(ctx: AppContext): Router {
   const router = Router();
 
   router.get('/organisation', requireCaller(ctx), async (_req, res) => {
-    const rows = await ctx.database.db.select(columns).from(organisations).where(eq(organisations.id, callerOf(res).organisationId));
-    res.json(rows[0]);
+    res.json(await findOrganisation(ctx.database.db, callerOf(res).organisationId));
   });
 
   router.patch('/organisation', requireSession(ctx), requireAdmin, validateBody(UpdateOrganisationSchema), async (_req, res) => {
-    const caller = callerOf(res);
-    const changes = res.locals.body as z.infer<typeof UpdateOrganisationSchema>;
-    const actor = await memberActor(ctx.database.db, caller);
-    const updated = await ctx.database.db.transaction(async (tx) => {
-      const [before] = await tx.select(columns).from(organisations).where(eq(organisations.id, caller.organisationId)).for('update');
-      const [after] = await tx.update(organisations).set(changes).where(eq(organisations.id, caller.organisationId)).returning(columns);
-      await recordAudit(tx, {
-        organisationId: caller.organisationId,
-        actor,
-        action: 'organisation.defaults_changed',
-        targetType: 'organisation',
-        targetId: caller.organisationId,
-        details: {
-          before: { defaultDailyQuota: before?.defaultDailyQuota, defaultBurstPerMinute: before?.defaultBurstPerMinute },
-          after: { defaultDailyQuota: after?.defaultDailyQuota, defaultBurstPerMinute: after?.defaultBurstPerMinute },
-        },
-      });
-      return after;
-    });
-    res.json(updated);
+    res.json(await updateDefaultLimits(ctx.database.db, callerOf(res), input(res, UpdateOrganisationSchema)));
   });
 
   return router;

@@ -1,33 +1,14 @@
 import { Router } from 'express';
-import { eq, sql } from 'drizzle-orm';
 import type { AppContext } from '../../../context.ts';
-import { organisations, users } from '../../../db/schema.ts';
 import { callerOf, requireSession } from '../../../auth/caller.ts';
 import { authProblems, publicAccess, sessionOnly } from '../../../auth/openapi.ts';
-import { verifyPassword } from '../../../auth/password.ts';
 import { endSession, startSession } from '../../../auth/session.ts';
 import { signInThrottleByAccount, signInThrottleByAddress } from '../../../auth/throttle.ts';
-import { ApiError, ProblemSchema } from '../../../http/problem.ts';
-import { validateBody } from '../../../http/validate.ts';
+import { ProblemSchema } from '../../../http/problem.ts';
+import { input, validateBody } from '../../../http/validate.ts';
 import { problemResponses, registry, json } from '../../../openapi/registry.ts';
-import { z } from '../../../zod.ts';
-import { findMember } from '../members/members.repository.ts';
-import { MemberSchema } from '../members/members.schemas.ts';
-
-const SignInSchema = z
-  .strictObject({
-    email: z.email({ message: 'enter the e-mail address you were invited with' }).max(254).openapi({ example: 'admin@kestrel-ridge.example' }),
-    password: z.string().min(1, 'enter your password').max(256).openapi({ example: 'gammaline-demo-2026' }),
-  })
-  .openapi('SignIn');
-
-const SessionSchema = z
-  .object({
-    member: MemberSchema,
-    organisation: z.object({ id: z.uuid(), name: z.string().openapi({ example: 'Kestrel Ridge Radio Club' }), slug: z.string().openapi({ example: 'kestrel-ridge' }) }),
-    csrfToken: z.string().openapi({ description: 'Send as `X-CSRF-Token` on every console write (POST, PATCH, DELETE) with this session.', example: 'q0bT1x7m4f0Hk2cZr8w3VYd6sNn5pAeJ1uLgQ9iK2oE' }),
-  })
-  .openapi('Session');
+import { SessionSchema, SignInSchema } from './session.schemas.ts';
+import { checkCredentials, sessionView } from './session.service.ts';
 
 const tags = ['Session'];
 
@@ -72,40 +53,22 @@ registry.registerPath({
   responses: { 204: { description: 'Signed out.' }, ...authProblems.unauthenticated, ...authProblems.forbidden },
 });
 
-const WRONG_CREDENTIALS = 'E-mail or password is wrong. Forgot the password? POST /api/v1/password-reset sends a link.';
-
-async function sessionView(ctx: AppContext, organisationId: string, userId: string, csrfToken: string) {
-  const member = await findMember(ctx.database.db, { organisationId, userId });
-  const [organisation] = await ctx.database.db
-    .select({ id: organisations.id, name: organisations.name, slug: organisations.slug })
-    .from(organisations)
-    .where(eq(organisations.id, organisationId));
-  return { member, organisation, csrfToken };
-}
-
 export function sessionRouter(ctx: AppContext): Router {
   const router = Router();
 
   router.post('/session', signInThrottleByAddress(ctx), validateBody(SignInSchema), signInThrottleByAccount(ctx), async (req, res) => {
-    const { email, password } = res.locals.body as z.infer<typeof SignInSchema>;
-    const rows = await ctx.database.db
-      .select({ id: users.id, organisationId: users.organisationId, passwordHash: users.passwordHash, disabled: users.disabled })
-      .from(users)
-      .where(sql`lower(${users.email}) = ${email.toLowerCase()}`);
-    const user = rows[0];
-    // Always verify something, so unknown addresses take as long as wrong passwords.
-    const ok = await verifyPassword(user?.passwordHash, password);
-    if (!user || !ok || user.disabled) throw new ApiError('unauthenticated', WRONG_CREDENTIALS);
-    const csrfToken = await startSession(req, user.id);
-    req.log?.info({ userId: user.id }, 'signed in');
+    const { email, password } = input(res, SignInSchema);
+    const member = await checkCredentials(ctx.database.db, email, password);
+    const csrfToken = await startSession(req, member.userId);
+    req.log?.info({ userId: member.userId }, 'signed in');
     res.setHeader('Cache-Control', 'no-store');
-    res.json(await sessionView(ctx, user.organisationId, user.id, csrfToken));
+    res.json(await sessionView(ctx.database.db, member, csrfToken));
   });
 
   router.get('/session', requireSession(ctx), async (req, res) => {
     const caller = callerOf(res);
     res.setHeader('Cache-Control', 'no-store');
-    res.json(await sessionView(ctx, caller.organisationId, caller.userId, req.session.csrfToken ?? ''));
+    res.json(await sessionView(ctx.database.db, { organisationId: caller.organisationId, userId: caller.userId }, req.session.csrfToken ?? ''));
   });
 
   router.delete('/session', requireSession(ctx), async (req, res) => {

@@ -1,4 +1,4 @@
-import { and, desc, eq } from 'drizzle-orm';
+import { and, desc, eq, sql } from 'drizzle-orm';
 import type { FeedlineSection } from '../../../../shared/schemas/feedlines.ts';
 import type { SweepMask, SweepSummary, SweepVerdict } from '../../../../shared/sweep/analyse.ts';
 import type { SweepDirection } from '../../../../shared/sweep/move.ts';
@@ -75,6 +75,62 @@ export async function findSweep(db: DbOrTx, q: { organisationId: string; id: str
   if (!row) return undefined;
   const { line, measuredPoints, movedPoints, ...header } = row;
   return { ...toHeader(header), line: line as FeedlineSection[] | null, measuredPoints, movedPoints };
+}
+
+/** A stored sweep without its points: the header, the line it was moved through and how many points it holds. */
+export interface SweepOutline extends SweepHeader {
+  line: FeedlineSection[] | null;
+  pointCount: number;
+}
+
+/** Bytes of one packed point (sweeps.points.ts). */
+const BYTES_PER_POINT = 24;
+
+/** The analysed point set: the moved points when the sweep was moved, else the measured ones. */
+const analysedPoints = sql`coalesce(${sweeps.movedPoints}, ${sweeps.measuredPoints})`;
+
+/**
+ * The sweep's outline and, with `count` > 0, the packed analysed points `start` to `start + count`:
+ * PostgreSQL cuts the slice from the stored value, so a page never carries the whole sweep.
+ */
+export async function findSweepSlice(
+  db: DbOrTx,
+  q: { organisationId: string; id: string },
+  slice: { start: number; count: number },
+): Promise<{ outline: SweepOutline; packed: Buffer } | undefined> {
+  const from = slice.start * BYTES_PER_POINT + 1;
+  const length = Math.max(0, slice.count) * BYTES_PER_POINT;
+  const rows = await db
+    .select({ ...headerColumns, line: sweeps.line, pointCount: sweeps.pointCount, packed: sql<Buffer>`substring(${analysedPoints} from ${from}::int for ${length}::int)` })
+    .from(sweeps)
+    .leftJoin(feedlines, and(eq(feedlines.id, sweeps.feedlineId), eq(feedlines.organisationId, sweeps.organisationId)))
+    .where(and(eq(sweeps.organisationId, q.organisationId), eq(sweeps.id, q.id)));
+  const row = rows[0];
+  if (!row) return undefined;
+  const { line, pointCount, packed, ...header } = row;
+  return { outline: { ...toHeader(header), line: line as FeedlineSection[] | null, pointCount }, packed: packed as Buffer };
+}
+
+/** Packed analysed points `start` to `start + count` of a sweep; undefined when it is gone. */
+export async function readSweepPoints(db: DbOrTx, q: { organisationId: string; id: string }, slice: { start: number; count: number }): Promise<Buffer | undefined> {
+  const rows = await db
+    .select({ packed: sql<Buffer>`substring(${analysedPoints} from ${slice.start * BYTES_PER_POINT + 1}::int for ${slice.count * BYTES_PER_POINT}::int)` })
+    .from(sweeps)
+    .where(and(eq(sweeps.organisationId, q.organisationId), eq(sweeps.id, q.id)));
+  return rows[0]?.packed as Buffer | undefined;
+}
+
+/** The stored judging figures and the analysed points, packed, for re-judging. */
+export async function findSweepForJudging(
+  db: DbOrTx,
+  q: { organisationId: string; id: string },
+): Promise<{ referenceOhm: number; thresholdSwr: number; mask: SweepMask | null; packed: Buffer } | undefined> {
+  const rows = await db
+    .select({ referenceOhm: sweeps.referenceOhm, thresholdSwr: sweeps.thresholdSwr, mask: sweeps.mask, packed: sql<Buffer>`${analysedPoints}` })
+    .from(sweeps)
+    .where(and(eq(sweeps.organisationId, q.organisationId), eq(sweeps.id, q.id)));
+  const row = rows[0];
+  return row ? { referenceOhm: row.referenceOhm, thresholdSwr: row.thresholdSwr, mask: row.mask as SweepMask | null, packed: row.packed as Buffer } : undefined;
 }
 
 export async function sweepIdByName(db: DbOrTx, q: { organisationId: string; name: string }): Promise<string | undefined> {

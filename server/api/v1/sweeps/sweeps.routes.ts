@@ -1,34 +1,39 @@
-import { Router } from 'express';
+import { Router, type Request } from 'express';
 import { z } from 'zod';
-import type { FeedlineSection } from '../../../../shared/schemas/feedlines.ts';
+import type { NextFunction, Response } from 'express';
 import {
   CreateSweepJsonSchema,
+  DEFAULT_SWEEP_POINTS_PAGE,
+  MAX_SWEEP_POINTS_PAGE,
   SweepIdParamsSchema,
   SweepListSchema,
   SweepMultipartSchema,
+  SweepPointsPageSchema,
+  SweepPointsQuerySchema,
+  SweepReadQuerySchema,
   SweepSchema,
   UpdateSweepSchema,
-  type SweepOptions,
 } from '../../../../shared/schemas/sweeps.ts';
+import { assertFinite } from '../../../../shared/calculations/finite.ts';
 import { FaultDistanceResultSchema, SweepFaultDistanceRequestSchema } from '../../../../shared/schemas/fault.ts';
-import { analyseSweep, type SweepMask } from '../../../../shared/sweep/analyse.ts';
-import { reflectionSamples } from '../../../../shared/sweep/fault-distance.ts';
-import { RfInputError } from '../../../../shared/rf/errors.ts';
-import { analysedPointsToCsv } from '../../../../shared/sweep/csv.ts';
+import { MAX_SWEEP_POINTS } from '../../../../shared/sweep/points.ts';
+import type { SweepMask } from '../../../../shared/sweep/analyse.ts';
+import { analysedCsvHeader } from '../../../../shared/sweep/csv.ts';
+import { pointsFromJson } from '../../../../shared/sweep/prepare.ts';
 import type { AppContext } from '../../../context.ts';
-import { callerOf, calculationGuard, requireCaller } from '../../../auth/caller.ts';
-import { authProblems, keyOrSession, meteredProblems, rateLimitHeaders } from '../../../auth/openapi.ts';
+import { callerOf, requireCaller } from '../../../auth/caller.ts';
+import { calculationGuard, meterCalculation } from '../../../quota/meter.ts';
+import { authProblems, keyOrSession } from '../../../auth/openapi.ts';
+import { meteredProblems, rateLimitHeaders } from '../../../quota/openapi.ts';
 import { ApiError } from '../../../http/problem.ts';
-import { validateBody, validateParams } from '../../../http/validate.ts';
+import { input, validateBody, validateParams, validateQuery } from '../../../http/validate.ts';
 import { apiErrorFromZod } from '../../../http/zod-issues.ts';
 import { calculationProblems, problemResponses, registry, json } from '../../../openapi/registry.ts';
-import { assertFinite, faultDistanceOf, type FaultOptions } from '../calc/operations.ts';
-import { cableIdsIn, calculationEnvFor } from '../cables/cables.env.ts';
-import { findFeedline } from '../feedlines/feedlines.repository.ts';
-import { deleteSweep, findSweep, insertSweep, listSweeps, updateSweepAnalysis, type SweepHeader, type SweepRecord } from './sweeps.repository.ts';
-import { pointsFromJson, prepareSweep, readSweepFile, type SweepMove } from './sweeps.service.ts';
-import { unpackPoints, packPoints } from './sweeps.points.ts';
+import { deleteSweep, listSweeps, type SweepHeader, type SweepOutline } from './sweeps.repository.ts';
+import { indexOfCursor, packedPointSlices, outlineView, rejudgeSweep, storedSweepFaultDistance, storeSweep, sweepOutline, sweepPage, type SweepUpload } from './sweeps.service.ts';
 import { MAX_SWEEP_FILE_BYTES, SweepFormFieldsSchema, sweepUpload } from './sweeps.upload.ts';
+import type { ExportFormat } from './sweeps.export.ts';
+import { formatInWorker } from './sweeps.preparer.ts';
 
 const tags = ['Sweeps'];
 
@@ -42,15 +47,15 @@ function headerView(h: SweepHeader) {
   return { ...h, createdAt: h.createdAt.toISOString() };
 }
 
-/** The full analysis of a stored sweep, recomputed from its points (deterministic, so it matches the stored summary). */
-function analysisOf(record: SweepRecord) {
-  const points = unpackPoints(record.movedPoints ?? record.measuredPoints);
-  return analyseSweep(points, { referenceOhm: record.referenceOhm, thresholdSwr: record.thresholdSwr, mask: record.mask ?? undefined });
-}
+/** Points an export streams per database read and write: about 150 KB of CSV, a few milliseconds of work. */
+const EXPORT_SLICE_POINTS = 1000;
 
-function sweepView(record: SweepRecord): z.input<typeof SweepSchema> {
-  const { measuredPoints: _m, movedPoints: _p, line, ...header } = record;
-  return { ...headerView(header), line, points: analysisOf(record).points };
+/** What reading a sweep costs: one calculation unit per page, and an export as many as its points fill pages of the largest size. */
+const READ_RULE =
+  `One calculation unit per page (at most ${MAX_SWEEP_POINTS_PAGE.toLocaleString('en')} points); a streamed export costs one unit for every ${MAX_SWEEP_POINTS_PAGE.toLocaleString('en')} points it holds (at least one).`;
+
+function exportUnits(pointCount: number): number {
+  return Math.max(1, Math.ceil(pointCount / MAX_SWEEP_POINTS_PAGE));
 }
 
 const notFound = () => new ApiError('notFound', 'No sweep with that id in your organisation; GET /api/v1/sweeps lists them.');
@@ -66,7 +71,8 @@ registry.registerPath({
     `(at most ${MAX_SWEEP_FILE_BYTES / 1024 / 1024} MB and 100,000 points), or JSON points. ` +
     'With `line` or `feedlineId` and `direction` the sweep is moved to the other end of the line first. Per point: impedance, Γ, SWR and return loss against `referenceOhm`; ' +
     'a summary (minimum SWR, bands under `thresholdSwr`, resonances) and, with a `mask`, a pass/fail verdict with the worst point. The sweep is stored for your organisation. ' +
-    'A file that cannot be read is a 400 problem naming the line and what is wrong there. One calculation unit.',
+    'A file that cannot be read is a 400 problem naming the line and what is wrong there. Reading and analysing run off the server\'s event loop, so a large upload does not hold up other requests. ' +
+    `The answer holds the summary and the first ${DEFAULT_SWEEP_POINTS_PAGE.toLocaleString('en')} analysed points with \`nextCursor\` for the rest (GET /api/v1/sweeps/{id}/points). One calculation unit.`,
   security: keyOrSession,
   request: {
     body: {
@@ -75,7 +81,7 @@ registry.registerPath({
     },
   },
   responses: {
-    201: { description: 'The stored sweep with every analysed point.', ...json(SweepSchema) },
+    201: { description: 'The stored sweep with the first page of analysed points.', headers: rateLimitHeaders, ...json(SweepSchema) },
     ...problemResponses.validation,
     ...problemResponses.tooLarge,
     ...problemResponses.unprocessable,
@@ -89,9 +95,9 @@ registry.registerPath({
   operationId: 'listSweeps',
   tags,
   summary: 'List your organisation\'s sweeps',
-  description: 'Summaries and verdicts without the points, newest first.',
+  description: `Summaries and verdicts without the points, newest first. ${READ_RULE.split(';')[0]}: the list is one page.`,
   security: keyOrSession,
-  responses: { 200: { description: 'The sweeps.', ...json(SweepListSchema) }, ...authProblems.unauthenticated },
+  responses: { 200: { description: 'The sweeps.', headers: rateLimitHeaders, ...json(SweepListSchema) }, ...meteredProblems },
 });
 
 registry.registerPath({
@@ -99,10 +105,45 @@ registry.registerPath({
   path: '/api/v1/sweeps/{id}',
   operationId: 'getSweep',
   tags,
-  summary: 'One sweep with every analysed point',
+  summary: 'One sweep with the first page of its analysed points',
+  description:
+    `The summary, the verdict and the first page of analysed points (\`limit\`, default ${DEFAULT_SWEEP_POINTS_PAGE.toLocaleString('en')}) with \`nextCursor\` for the next page; with \`fields=summary\` no points. ` +
+    `A sweep holds at most ${MAX_SWEEP_POINTS.toLocaleString('en')} points. One calculation unit (one page).`,
   security: keyOrSession,
-  request: { params: SweepIdParamsSchema },
-  responses: { 200: { description: 'The sweep.', ...json(SweepSchema) }, ...problemResponses.validation, ...authProblems.unauthenticated, ...problemResponses.notFound },
+  request: { params: SweepIdParamsSchema, query: SweepReadQuerySchema },
+  responses: { 200: { description: 'The sweep.', headers: rateLimitHeaders, ...json(SweepSchema) }, ...problemResponses.validation, ...meteredProblems, ...problemResponses.notFound },
+});
+
+const NDJSON_EXAMPLE =
+  '{"frequencyHz":7100000,"loadOhm":{"re":50.4,"im":1.2},"reflection":{"re":0.0039,"im":0.0119,"magnitude":0.0125,"angleDeg":71.8},"swr":1.0253,"returnLossDb":38.06}\n';
+const CSV_EXAMPLE = 'frequency_hz,r_ohm,x_ohm,reflection_re,reflection_im,reflection_magnitude,reflection_angle_deg,swr,return_loss_db\r\n7100000,50.4,1.2,0.0039,0.0119,0.0125,71.8,1.0253,38.06\r\n';
+
+registry.registerPath({
+  method: 'get',
+  path: '/api/v1/sweeps/{id}/points',
+  operationId: 'listSweepPoints',
+  tags,
+  summary: 'A sweep\'s analysed points, a page at a time or streamed whole',
+  description:
+    `JSON (the default): one page of at most \`limit\` points (1 to ${MAX_SWEEP_POINTS_PAGE.toLocaleString('en')}, default ${DEFAULT_SWEEP_POINTS_PAGE.toLocaleString('en')}) from \`cursor\`, and \`nextCursor\` for the next one (\`null\` after the last point); following the cursors visits every point once, by increasing frequency. ` +
+    'With `Accept: text/csv` or `Accept: application/x-ndjson` (or `format=csv`/`format=ndjson`) every point is streamed instead, as the CSV of GET /api/v1/sweeps/{id}/points.csv or as one JSON `AnalysedPoint` per line; the server reads and writes it in slices at the pace the client reads. ' +
+    READ_RULE,
+  security: keyOrSession,
+  request: { params: SweepIdParamsSchema, query: SweepPointsQuerySchema },
+  responses: {
+    200: {
+      description: 'A page of points, or every point as CSV or NDJSON.',
+      headers: rateLimitHeaders,
+      content: {
+        'application/json': { schema: SweepPointsPageSchema },
+        'text/csv': { schema: z.string().meta({ example: CSV_EXAMPLE }) },
+        'application/x-ndjson': { schema: z.string().meta({ example: NDJSON_EXAMPLE }) },
+      },
+    },
+    ...problemResponses.validation,
+    ...meteredProblems,
+    ...problemResponses.notFound,
+  },
 });
 
 registry.registerPath({
@@ -112,16 +153,18 @@ registry.registerPath({
   tags,
   summary: 'The analysed points as CSV',
   description:
-    'RFC 4180 CSV with CRLF line ends and a header row: `frequency_hz, r_ohm, x_ohm, reflection_re, reflection_im, reflection_magnitude, reflection_angle_deg, swr, return_loss_db`. Unbounded figures and an open circuit\'s impedance are empty cells. POST /api/v1/sweeps reads such a file back.',
+    'RFC 4180 CSV with CRLF line ends and a header row: `frequency_hz, r_ohm, x_ohm, reflection_re, reflection_im, reflection_magnitude, reflection_angle_deg, swr, return_loss_db`. Unbounded figures and an open circuit\'s impedance are empty cells. POST /api/v1/sweeps reads such a file back. ' +
+    `Streamed in slices at the pace the client reads. ${READ_RULE.split('; ')[1]!.replace(/^a/, 'A')}`,
   security: keyOrSession,
   request: { params: SweepIdParamsSchema },
   responses: {
     200: {
       description: 'The CSV file.',
-      content: { 'text/csv': { schema: z.string().meta({ example: 'frequency_hz,r_ohm,x_ohm,reflection_re,reflection_im,reflection_magnitude,reflection_angle_deg,swr,return_loss_db\r\n7100000,50.4,1.2,0.0039,0.0119,0.0125,71.8,1.0253,38.06\r\n' }) } },
+      headers: rateLimitHeaders,
+      content: { 'text/csv': { schema: z.string().meta({ example: CSV_EXAMPLE }) } },
     },
     ...problemResponses.validation,
-    ...authProblems.unauthenticated,
+    ...meteredProblems,
     ...problemResponses.notFound,
   },
 });
@@ -132,15 +175,14 @@ registry.registerPath({
   operationId: 'updateSweep',
   tags,
   summary: 'Judge a stored sweep by another threshold or acceptance figure',
-  description: 'Sets `thresholdSwr` and/or `mask` (`null` removes the mask); the bands, the summary and the verdict are worked out again from the stored points, which never change.',
+  description: 'Sets `thresholdSwr` and/or `mask` (`null` removes the mask); the bands, the summary and the verdict are worked out again from the stored points, which never change. One calculation unit.',
   security: keyOrSession,
   request: { params: SweepIdParamsSchema, body: { required: true, ...json(UpdateSweepSchema) } },
   responses: {
-    200: { description: 'The sweep as judged now, with every analysed point.', ...json(SweepSchema) },
+    200: { description: 'The sweep as judged now, with the first page of analysed points.', headers: rateLimitHeaders, ...json(SweepSchema) },
     ...problemResponses.validation,
     ...problemResponses.unprocessable,
-    ...authProblems.unauthenticated,
-    ...authProblems.forbidden,
+    ...meteredProblems,
     ...problemResponses.notFound,
   },
 });
@@ -151,9 +193,10 @@ registry.registerPath({
   operationId: 'deleteSweep',
   tags,
   summary: 'Delete a sweep',
+  description: 'One calculation unit.',
   security: keyOrSession,
   request: { params: SweepIdParamsSchema },
-  responses: { 204: { description: 'Deleted.' }, ...problemResponses.validation, ...authProblems.unauthenticated, ...authProblems.forbidden, ...problemResponses.notFound },
+  responses: { 204: { description: 'Deleted.', headers: rateLimitHeaders }, ...problemResponses.validation, ...meteredProblems, ...problemResponses.notFound },
 });
 
 registry.registerPath({
@@ -175,10 +218,89 @@ registry.registerPath({
   },
 });
 
+/**
+ * The sweep and its options from the upload's body: a file with text option fields
+ * (multipart/form-data), or JSON points with JSON options.
+ */
+function uploadOf(req: Request): SweepUpload {
+  if (req.is('multipart/form-data')) {
+    const { format, ...options } = parseOrThrow(SweepFormFieldsSchema, { ...(req.body as Record<string, unknown>) });
+    if (!req.file) {
+      throw new ApiError('validation', 'The upload has no file; send the sweep in the form field named "file".', { errors: [{ field: 'file', message: 'required' }] });
+    }
+    const fileName = req.file.originalname || null;
+    // Read in a worker thread by storeSweep.
+    return { ...maskAsSweepMask(options), file: req.file.buffer, fileName, format };
+  }
+  if (req.is('application/json')) {
+    const { points, ...options } = parseOrThrow(CreateSweepJsonSchema, req.body ?? {});
+    const referenceOhm = options.referenceOhm ?? 50;
+    return { ...maskAsSweepMask(options), sourceFormat: 'json', fileName: null, referenceOhm, measured: pointsFromJson(points, referenceOhm) };
+  }
+  throw new ApiError('unsupportedMediaType', 'Upload a file as multipart/form-data (field "file"), or send JSON points with Content-Type: application/json.');
+}
+
+/** The schema's refinement makes a mask one of the two forms SweepMask names. */
+function maskAsSweepMask<O extends { mask?: unknown }>(options: O): Omit<O, 'mask'> & { mask: SweepMask | null } {
+  return { ...options, mask: (options.mask ?? null) as SweepMask | null };
+}
+
 /** Characters safe in a Content-Disposition file name on every platform. */
 function fileNameFor(name: string): string {
   const safe = name.normalize('NFKD').replace(/[^A-Za-z0-9._-]+/g, '-').replace(/^-+|-+$/g, '').slice(0, 80);
   return `${safe || 'sweep'}.csv`;
+}
+
+interface ExportLocals {
+  exportFormat?: ExportFormat | 'json';
+  sweepOutline?: SweepOutline;
+}
+
+/** `format` when given, else what `Accept` prefers (JSON pages unless CSV or NDJSON is asked for). */
+function exportFormatOf(req: Request, format: 'json' | 'csv' | 'ndjson' | undefined): ExportFormat | 'json' {
+  if (format) return format;
+  const preferred = req.accepts(['application/json', 'text/csv', 'application/x-ndjson']);
+  return preferred === 'text/csv' ? 'csv' : preferred === 'application/x-ndjson' ? 'ndjson' : 'json';
+}
+
+/** Resolves once the response can take more, or is closed. */
+function drained(res: Response): Promise<void> {
+  return new Promise((resolve) => {
+    const done = () => {
+      res.off('drain', done);
+      res.off('close', done);
+      resolve();
+    };
+    res.on('drain', done);
+    res.on('close', done);
+  });
+}
+
+/**
+ * Writes an export slice by slice, waiting for the client to take each one (backpressure): memory
+ * holds a slice or two, whatever the sweep's size. Each slice is formatted in the worker thread
+ * while the next is read from the database. A failure after the first bytes can only cut the answer
+ * short, so the connection is closed and the client sees an incomplete body.
+ */
+async function streamExport(res: Response, format: ExportFormat, outline: SweepOutline, slices: AsyncGenerator<Buffer>): Promise<void> {
+  const first = await slices.next();
+  if (format === 'csv') res.status(200).type('text/csv; charset=utf-8').attachment(fileNameFor(outline.name));
+  else res.status(200).type('application/x-ndjson; charset=utf-8');
+  if (format === 'csv') res.write(analysedCsvHeader());
+  try {
+    let slice = first;
+    while (!slice.done && !res.destroyed) {
+      const [chunk, next] = await Promise.all([formatInWorker(slice.value, outline.referenceOhm, format), slices.next()]);
+      if (!res.write(chunk)) await drained(res);
+      slice = next;
+    }
+  } catch (err) {
+    res.destroy(err instanceof Error ? err : new Error(String(err)));
+    return;
+  } finally {
+    await slices.return(undefined);
+  }
+  if (!res.destroyed) res.end();
 }
 
 /** Uploaded sweeps of an organisation. */
@@ -189,111 +311,61 @@ export function sweepsRouter(ctx: AppContext): Router {
 
   router.post('/sweeps', ...calculationGuard(ctx, 'sweeps'), sweepUpload, async (req, res) => {
     const who = callerOf(res);
-    let options: SweepOptions;
-    let measured;
-    let referenceOhm: number;
-    let sourceFormat: 'touchstone' | 'csv' | 'json';
-    let fileName: string | null = null;
-
-    if (req.is('multipart/form-data')) {
-      const { format, ...fields } = parseOrThrow(SweepFormFieldsSchema, { ...(req.body as Record<string, unknown>) });
-      options = fields;
-      if (!req.file) {
-        throw new ApiError('validation', 'The upload has no file; send the sweep in the form field named "file".', { errors: [{ field: 'file', message: 'required' }] });
-      }
-      fileName = req.file.originalname || null;
-      const read = readSweepFile(req.file.buffer, { fileName: fileName ?? undefined, format, referenceOhm: fields.referenceOhm });
-      measured = read.points;
-      referenceOhm = read.referenceOhm;
-      sourceFormat = read.format;
-    } else if (req.is('application/json')) {
-      const { points, ...fields } = parseOrThrow(CreateSweepJsonSchema, req.body ?? {});
-      options = fields;
-      referenceOhm = fields.referenceOhm ?? 50;
-      measured = pointsFromJson(points, referenceOhm);
-      sourceFormat = 'json';
-    } else {
-      throw new ApiError('unsupportedMediaType', 'Upload a file as multipart/form-data (field "file"), or send JSON points with Content-Type: application/json.');
-    }
-
-    let move: SweepMove | undefined;
-    let feedlineRef: { id: string; name: string } | null = null;
-    if (options.feedlineId !== undefined) {
-      const feedline = await findFeedline(db, { organisationId: who.organisationId, id: options.feedlineId });
-      if (!feedline) {
-        throw new ApiError('unprocessable', 'feedlineId: no saved feed line with that id in your organisation; GET /api/v1/feedlines lists them.', {
-          errors: [{ field: 'feedlineId', message: 'no saved feed line with that id in your organisation' }],
-        });
-      }
-      feedlineRef = { id: feedline.id, name: feedline.name };
-      move = { sections: feedline.sections, direction: options.direction!, field: 'feedlineId', single: false };
-    } else if (options.line !== undefined) {
-      const single = !Array.isArray(options.line);
-      move = { sections: (single ? [options.line] : options.line) as FeedlineSection[], direction: options.direction!, field: 'line', single };
-    }
-    const env = await calculationEnvFor(db, who.organisationId, cableIdsIn(move?.sections ?? []));
-    const mask = (options.mask ?? null) as SweepMask | null;
-    const { moved, analysis, thresholdSwr } = prepareSweep(measured, { referenceOhm, thresholdSwr: options.thresholdSwr, mask: mask ?? undefined, move, env });
-
-    const name = options.name ?? (fileName ? fileName.replace(/\.[A-Za-z0-9]+$/, '') || fileName : 'Sweep');
-    const stored = await insertSweep(db, {
-      organisationId: who.organisationId,
-      createdBy: who.userId,
-      name,
-      sourceFormat,
-      fileName,
-      referenceOhm,
-      thresholdSwr,
-      direction: move?.direction ?? null,
-      line: move?.sections ?? null,
-      feedlineId: feedlineRef?.id ?? null,
-      mask,
-      pointCount: analysis.summary.pointCount,
-      startHz: analysis.summary.startHz,
-      stopHz: analysis.summary.stopHz,
-      measuredPoints: packPoints(measured),
-      movedPoints: moved ? packPoints(moved) : null,
-      summary: analysis.summary,
-      verdict: analysis.verdict ?? null,
-    });
-    const body: z.input<typeof SweepSchema> = {
-      id: stored.id,
-      name,
-      sourceFormat,
-      fileName,
-      referenceOhm,
-      thresholdSwr,
-      direction: move?.direction ?? null,
-      feedline: feedlineRef,
-      mask: options.mask ?? null,
-      summary: analysis.summary,
-      verdict: analysis.verdict ?? null,
-      createdAt: stored.createdAt.toISOString(),
-      line: move?.sections ?? null,
-      points: analysis.points,
-    };
-    res.status(201).location(`/api/v1/sweeps/${stored.id}`).json(body);
+    const stored = await storeSweep(db, { organisationId: who.organisationId, createdBy: who.userId, ...uploadOf(req) });
+    res.status(201).location(`/api/v1/sweeps/${stored.id}`).json(stored);
   });
 
-  router.get('/sweeps', caller, async (_req, res) => {
+  router.get('/sweeps', ...calculationGuard(ctx, 'sweepList'), async (_req, res) => {
     res.json({ sweeps: (await listSweeps(db, callerOf(res).organisationId)).map(headerView) });
   });
 
-  router.get('/sweeps/:id', caller, validateParams(SweepIdParamsSchema), async (_req, res) => {
-    const { id } = res.locals.params as { id: string };
-    const record = await findSweep(db, { organisationId: callerOf(res).organisationId, id });
-    if (!record) throw notFound();
-    res.json(sweepView(record));
+  router.get('/sweeps/:id', ...calculationGuard(ctx, 'sweepRead'), validateParams(SweepIdParamsSchema), validateQuery(SweepReadQuerySchema), async (_req, res) => {
+    const { id } = input(res, SweepIdParamsSchema);
+    const query = input(res, SweepReadQuerySchema);
+    const q = { organisationId: callerOf(res).organisationId, id };
+    if (query.fields === 'summary') {
+      const outline = await sweepOutline(db, q);
+      if (!outline) throw notFound();
+      res.json(outlineView(outline));
+      return;
+    }
+    const page = await sweepPage(db, q, { start: 0, limit: query.limit ?? DEFAULT_SWEEP_POINTS_PAGE });
+    if (!page) throw notFound();
+    res.json({ ...outlineView(page.outline), points: page.points, nextCursor: page.nextCursor });
   });
 
-  router.get('/sweeps/:id/points.csv', caller, validateParams(SweepIdParamsSchema), async (_req, res) => {
-    const { id } = res.locals.params as { id: string };
-    const record = await findSweep(db, { organisationId: callerOf(res).organisationId, id });
-    if (!record) throw notFound();
-    res
-      .type('text/csv; charset=utf-8')
-      .attachment(fileNameFor(record.name))
-      .send(analysedPointsToCsv(analysisOf(record).points));
+  // An export's units depend on the sweep's size, so the sweep is looked up before it is metered.
+  const exportMeter = meterCalculation(ctx, 'sweepExport', (_req, res) => exportUnits((res.locals as ExportLocals).sweepOutline!.pointCount));
+  const pageMeter = meterCalculation(ctx, 'sweepPoints');
+  const lookUpExport = async (res: Response, next: NextFunction) => {
+    const outline = await sweepOutline(db, { organisationId: callerOf(res).organisationId, id: input(res, SweepIdParamsSchema).id });
+    if (!outline) throw notFound();
+    (res.locals as ExportLocals).sweepOutline = outline;
+    exportMeter(res.req, res, next);
+  };
+
+  router.get('/sweeps/:id/points', caller, validateParams(SweepIdParamsSchema), validateQuery(SweepPointsQuerySchema), async (req, res, next) => {
+    const format = exportFormatOf(req, input(res, SweepPointsQuerySchema).format);
+    (res.locals as ExportLocals).exportFormat = format;
+    if (format === 'json') pageMeter(req, res, next);
+    else await lookUpExport(res, next);
+  }, async (_req, res) => {
+    const locals = res.locals as ExportLocals;
+    const q = { organisationId: callerOf(res).organisationId, id: input(res, SweepIdParamsSchema).id };
+    if (locals.exportFormat !== 'json') {
+      await streamExport(res, locals.exportFormat!, locals.sweepOutline!, packedPointSlices(db, q, locals.sweepOutline!, EXPORT_SLICE_POINTS));
+      return;
+    }
+    const query = input(res, SweepPointsQuerySchema);
+    const page = await sweepPage(db, q, { start: indexOfCursor(query.cursor), limit: query.limit ?? DEFAULT_SWEEP_POINTS_PAGE });
+    if (!page) throw notFound();
+    res.json({ points: page.points, nextCursor: page.nextCursor });
+  });
+
+  router.get('/sweeps/:id/points.csv', caller, validateParams(SweepIdParamsSchema), (_req, res, next) => lookUpExport(res, next), async (_req, res) => {
+    const outline = (res.locals as ExportLocals).sweepOutline!;
+    const q = { organisationId: callerOf(res).organisationId, id: outline.id };
+    await streamExport(res, 'csv', outline, packedPointSlices(db, q, outline, EXPORT_SLICE_POINTS));
   });
 
   router.post(
@@ -302,40 +374,26 @@ export function sweepsRouter(ctx: AppContext): Router {
     validateParams(SweepIdParamsSchema),
     validateBody(SweepFaultDistanceRequestSchema),
     async (_req, res) => {
-      const who = callerOf(res);
-      const { id } = res.locals.params as { id: string };
-      const options = res.locals.body as FaultOptions;
-      const record = await findSweep(db, { organisationId: who.organisationId, id });
-      if (!record) throw notFound();
-      const env = await calculationEnvFor(db, who.organisationId, cableIdsIn(options.line));
-      try {
-        const samples = reflectionSamples(unpackPoints(record.measuredPoints), record.referenceOhm);
-        res.json(assertFinite(faultDistanceOf(samples, options, env)));
-      } catch (err) {
-        // The points are not in this request: a problem with them is addressed to the sweep.
-        if (err instanceof RfInputError && err.field.startsWith('points')) throw new RfInputError('id', `in the stored sweep${err.field === 'points' ? '' : `, ${err.field.replace(/^points\.(\d+).*/, 'point $1, counting from 0')}`}: ${err.message}`);
-        throw err;
-      }
+      const { id } = input(res, SweepIdParamsSchema);
+      const result = await storedSweepFaultDistance(db, { organisationId: callerOf(res).organisationId, id }, input(res, SweepFaultDistanceRequestSchema));
+      if (!result) throw notFound();
+      res.json(assertFinite(result));
     },
   );
 
-  router.patch('/sweeps/:id', caller, validateParams(SweepIdParamsSchema), validateBody(UpdateSweepSchema), async (_req, res) => {
-    const { id } = res.locals.params as { id: string };
-    const change = res.locals.body as z.output<typeof UpdateSweepSchema>;
-    const organisationId = callerOf(res).organisationId;
-    const record = await findSweep(db, { organisationId, id });
-    if (!record) throw notFound();
-    const thresholdSwr = change.thresholdSwr ?? record.thresholdSwr;
+  router.patch('/sweeps/:id', ...calculationGuard(ctx, 'sweepJudge'), validateParams(SweepIdParamsSchema), validateBody(UpdateSweepSchema), async (_req, res) => {
+    const { id } = input(res, SweepIdParamsSchema);
+    const change = input(res, UpdateSweepSchema);
     // The schema's refinement makes a mask one of the two forms SweepMask names.
-    const mask = change.mask === undefined ? record.mask : (change.mask as SweepMask | null);
-    const points = unpackPoints(record.movedPoints ?? record.measuredPoints);
-    const { summary, verdict } = analyseSweep(points, { referenceOhm: record.referenceOhm, thresholdSwr, mask: mask ?? undefined });
-    if (!(await updateSweepAnalysis(db, { organisationId, id }, { thresholdSwr, mask, summary, verdict: verdict ?? null }))) throw notFound();
-    res.json(sweepView({ ...record, thresholdSwr, mask, summary, verdict: verdict ?? null }));
+    const q = { organisationId: callerOf(res).organisationId, id };
+    if (!(await rejudgeSweep(db, q, { thresholdSwr: change.thresholdSwr, mask: change.mask as SweepMask | null | undefined }))) throw notFound();
+    const page = await sweepPage(db, q, { start: 0, limit: DEFAULT_SWEEP_POINTS_PAGE });
+    if (!page) throw notFound();
+    res.json({ ...outlineView(page.outline), points: page.points, nextCursor: page.nextCursor });
   });
 
-  router.delete('/sweeps/:id', caller, validateParams(SweepIdParamsSchema), async (_req, res) => {
-    const { id } = res.locals.params as { id: string };
+  router.delete('/sweeps/:id', ...calculationGuard(ctx, 'sweepDelete'), validateParams(SweepIdParamsSchema), async (_req, res) => {
+    const { id } = input(res, SweepIdParamsSchema);
     if (!(await deleteSweep(db, { organisationId: callerOf(res).organisationId, id }))) throw notFound();
     res.status(204).end();
   });

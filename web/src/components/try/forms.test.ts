@@ -6,7 +6,7 @@ import MatchForm from './MatchForm.vue';
 import MismatchForm from './MismatchForm.vue';
 import ReferForm from './ReferForm.vue';
 import { figuresOf } from './figures.ts';
-import { LineRequestSchema, MismatchRequestSchema, ReferRequestSchema } from '../../../../shared/schemas/calc.ts';
+import { LineRequestSchema, MismatchRequestSchema, ReferRequestSchema } from '../../../../shared/schemas/calculations.ts';
 import type { FormState } from './request.ts';
 
 afterEach(() => {

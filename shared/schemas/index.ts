@@ -1,2 +1,0 @@
-export * from './common.ts';
-export * from './calc.ts';
